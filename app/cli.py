@@ -1,0 +1,153 @@
+"""The ``attesta`` command: create, fill, export and serve a dataset.
+
+Every command takes ``--db`` (a path or a database URL; default ``ATTESTA_DATABASE_URL`` or
+``./attesta.db``). Problems are printed with where they are, and exit with status 1.
+"""
+
+from __future__ import annotations
+
+import os
+import shutil
+import sys
+import tempfile
+from collections.abc import Callable
+from functools import wraps
+from pathlib import Path
+
+import click
+
+from app.config import Settings
+from app.db import Database, DatabaseError, check_schema, upgrade
+from app.exchange.workbook import WorkbookError, export_workbook, import_workbook
+
+DEMO_WORKBOOK = Path(__file__).resolve().parent.parent / "sample_data" / "demo"
+
+db_option = click.option(
+    "--db", "database", metavar="PATH|URL", default=None,
+    help="Database file or URL (default: $ATTESTA_DATABASE_URL or ./attesta.db).",
+)
+
+
+def _fail(message: str) -> None:
+    click.secho(f"error: {message}", fg="red", err=True)
+    sys.exit(1)
+
+
+def reports_problems(command: Callable) -> Callable:
+    """Turn our own errors into a clear message and exit status 1 instead of a traceback."""
+
+    @wraps(command)
+    def wrapper(*args, **kwargs):  # noqa: ANN002, ANN003
+        try:
+            return command(*args, **kwargs)
+        except WorkbookError as error:
+            _fail(str(error))
+        except DatabaseError as error:
+            _fail(str(error))
+
+    return wrapper
+
+
+def _open(database: str | None, *, must_exist: bool = True) -> tuple[Settings, Database]:
+    settings = Settings.from_env(database)
+    if must_exist and settings.database_url.startswith("sqlite:///"):
+        path = Path(settings.database_url.removeprefix("sqlite:///"))
+        if not path.exists():
+            _fail(f"no database at {path}: create one with `attesta init --db {path}` or `attesta demo --db {path}`")
+    return settings, Database(settings.database_url, busy_timeout_ms=settings.busy_timeout_ms)
+
+
+@click.group()
+@click.version_option(package_name="attesta")
+def main() -> None:
+    """Attesta: persons, documents and the ties the documents attest."""
+
+
+@main.command()
+@db_option
+@reports_problems
+def init(database: str | None) -> None:
+    """Create the database, or upgrade it to the newest schema."""
+    settings, db = _open(database, must_exist=False)
+    upgrade(db)
+    click.echo(f"database ready: {settings.database_url}")
+
+
+@main.command(name="import")
+@db_option
+@click.argument("workbook", type=click.Path(path_type=Path))
+@reports_problems
+def import_command(database: str | None, workbook: Path) -> None:
+    """Import a workbook (a folder or .zip of CSV files): all rows, or nothing."""
+    settings, db = _open(database)
+    check_schema(db)
+    report = import_workbook(db, workbook, size_limit=settings.upload_limit_bytes, actor="cli")
+    for line in report.lines():
+        click.echo(line)
+    click.echo(f"data version {report.data_version}" + ("" if report.changed_anything else " (nothing changed)"))
+
+
+@main.command()
+@db_option
+@click.argument("folder", type=click.Path(path_type=Path))
+@reports_problems
+def export(database: str | None, folder: Path) -> None:
+    """Export the whole dataset as a workbook folder (keys filled in)."""
+    _, db = _open(database)
+    check_schema(db)
+    with db.read() as session:
+        counts = export_workbook(session, folder)
+    for name, n in counts.items():
+        click.echo(f"{name}: {n} rows")
+
+
+@main.command()
+@db_option
+@click.option("--replace", is_flag=True, help="Replace an existing database file.")
+@reports_problems
+def demo(database: str | None, replace: bool) -> None:
+    """Create a database holding the invented demo scenario of sample_data/."""
+    settings = Settings.from_env(database)
+    if not settings.database_url.startswith("sqlite:///"):
+        _fail("the demo is built as an SQLite file; give --db a file path")
+    target = Path(settings.database_url.removeprefix("sqlite:///"))
+    if target.exists() and not replace:
+        _fail(f"{target} exists already; add --replace to overwrite it")
+    # Built beside the target and moved into place, so a failure never leaves half a demo.
+    with tempfile.TemporaryDirectory(dir=target.parent, prefix=".attesta-demo-") as scratch:
+        scratch_db = Path(scratch) / "demo.db"
+        db = Database(f"sqlite:///{scratch_db}")
+        upgrade(db)
+        report = import_workbook(db, DEMO_WORKBOOK, size_limit=settings.upload_limit_bytes, actor="demo")
+        with db.engine.connect() as connection:  # fold the WAL into the file before moving it
+            connection.exec_driver_sql("PRAGMA wal_checkpoint(TRUNCATE)")
+        db.dispose()
+        for suffix in ("-wal", "-shm"):
+            Path(f"{target}{suffix}").unlink(missing_ok=True)
+        shutil.move(scratch_db, target)
+    click.echo(f"demo database written to {target}")
+    for line in report.lines():
+        click.echo(line)
+
+
+@main.command()
+@db_option
+@click.option("--host", default="127.0.0.1", show_default=True, help="Address to listen on.")
+@click.option("--port", default=8000, show_default=True, type=int, help="Port to listen on.")
+@reports_problems
+def serve(database: str | None, host: str, port: int) -> None:
+    """Serve the web pages and the JSON API with uvicorn."""
+    import uvicorn
+
+    from app.main import create_app
+
+    settings, db = _open(database)
+    check_schema(db)
+    db.dispose()
+    os.environ["ATTESTA_DATABASE_URL"] = settings.database_url
+    click.echo(f"serving {settings.database_url} on http://{host}:{port}/")
+    uvicorn.run(create_app(settings), host=host, port=port, log_level="warning")
+
+
+if __name__ == "__main__":
+    main()

@@ -1,0 +1,1014 @@
+"""The workbook: a folder (or .zip) of UTF-8 CSV files that carries a whole dataset in and out.
+
+Import reads every file, checks every row and writes in one transaction: if any row has a
+problem, nothing is written and every problem is reported as ``file:line: column: reason``.
+Rows with a key update the record of that key; attestation rows without a key are matched
+on all their fields, so importing the same workbook twice changes nothing. Import never
+deletes. Export writes every file back with keys filled in, so a round trip loses nothing.
+"""
+
+from __future__ import annotations
+
+import csv
+import hashlib
+import io
+import json
+import re
+import zipfile
+from collections import Counter
+from dataclasses import dataclass, field
+from datetime import date, datetime, timezone
+from pathlib import Path, PurePosixPath
+from typing import Any, NamedTuple
+
+from sqlalchemy import select, update
+from sqlalchemy.orm import Session
+
+from app.dates import DEFAULT_SETTINGS, DateError, DateSettings, check_calendar, interval_or_none
+from app.db import Database
+from app.models import (
+    CERTAINTIES,
+    EVIDENCE_KINDS,
+    FACT_KINDS,
+    PERSON_KINDS,
+    Attestation,
+    AuditEntry,
+    Collection,
+    DataVersion,
+    Group,
+    Membership,
+    Person,
+    PersonAlias,
+    PersonFact,
+    PersonIdentifier,
+    PersonName,
+    Place,
+    Relation,
+    RelationKind,
+    Repository,
+    Source,
+)
+from app.names import fold
+
+MAX_PROBLEMS = 200
+KEY_RE = re.compile(r"^[A-Za-z0-9._:-]{1,100}$")
+TRUE_WORDS = {"yes", "y", "true", "1"}
+FALSE_WORDS = {"no", "n", "false", "0", ""}
+
+
+class FileSpec(NamedTuple):
+    columns: tuple[str, ...]
+    required: tuple[str, ...]
+
+
+# In the order they are read: every file refers only to files above it (or to itself).
+FILES: dict[str, FileSpec] = {
+    "places.csv": FileSpec(("key", "name", "variants", "latitude", "longitude", "identifier"), ("key", "name")),
+    "repositories.csv": FileSpec(("key", "name", "place", "note"), ("key", "name")),
+    "collections.csv": FileSpec(("key", "repository", "name", "reference_code", "note"), ("key", "repository", "name")),
+    "persons.csv": FileSpec(
+        ("key", "name", "sort_name", "kind", "unidentified", "living", "variants", "born", "died", "calendar",
+         "identifiers", "note"),
+        ("key", "name"),
+    ),
+    "groups.csv": FileSpec(("key", "name", "kind", "place", "parent", "start", "end", "note"), ("key", "name")),
+    "sources.csv": FileSpec(
+        ("key", "repository", "collection", "reference", "kind", "title", "author", "publisher", "year", "pages",
+         "date", "calendar", "place_from", "place_to", "received", "copy_of", "url", "note"),
+        ("key",),
+    ),
+    "relation_kinds.csv": FileSpec(("key", "label", "directed", "role_a", "role_b", "parent"), ("key",)),
+    "relations.csv": FileSpec(
+        ("key", "person", "other", "kind", "source", "locus", "evidence", "date", "calendar", "place", "certainty",
+         "identification", "person_as_written", "other_as_written", "quote", "note"),
+        ("person", "other", "kind", "source"),
+    ),
+    "memberships.csv": FileSpec(
+        ("key", "person", "group", "role", "start", "end", "source", "locus", "evidence", "date", "certainty",
+         "quote", "note"),
+        ("person", "group", "source"),
+    ),
+    "facts.csv": FileSpec(
+        ("key", "person", "fact", "value", "place", "date", "source", "locus", "evidence", "certainty", "quote",
+         "note"),
+        ("person", "fact", "source"),
+    ),
+}
+
+
+class Problem(NamedTuple):
+    file: str
+    line: int
+    column: str
+    reason: str
+
+    def __str__(self) -> str:
+        return f"{self.file}:{self.line}: {self.column}: {self.reason}"
+
+
+class WorkbookError(Exception):
+    """The workbook cannot be imported; ``problems`` says where and why. Nothing was written."""
+
+    def __init__(self, problems: list[Problem], total: int | None = None):
+        self.problems = problems[:MAX_PROBLEMS]
+        self.total = total if total is not None else len(problems)
+        shown = "\n".join(str(p) for p in self.problems)
+        more = f"\n... and {self.total - len(self.problems)} more" if self.total > len(self.problems) else ""
+        super().__init__(f"{self.total} problem(s); nothing was imported:\n{shown}{more}")
+
+
+@dataclass
+class Row:
+    file: str
+    line: int
+    values: dict[str, str]
+
+    def get(self, column: str) -> str | None:
+        """Return the stripped cell, or None when the column is blank or absent."""
+        value = (self.values.get(column) or "").strip()
+        return value or None
+
+    def has(self, column: str) -> bool:
+        return column in self.values
+
+
+@dataclass
+class ImportReport:
+    """What an import did, file by file, and what it assumed."""
+
+    rows: dict[str, Counter] = field(default_factory=dict)  # file -> added / changed / unchanged
+    created: Counter = field(default_factory=Counter)  # new relations, memberships, facts
+    defaulted_certainty: int = 0
+    warnings: list[str] = field(default_factory=list)
+    data_version: int = 0
+    sha256: str = ""
+
+    @property
+    def changed_anything(self) -> bool:
+        return any(c["added"] or c["changed"] for c in self.rows.values())
+
+    def lines(self) -> list[str]:
+        out = []
+        for name, counts in self.rows.items():
+            out.append(f"{name}: {counts['added']} added, {counts['changed']} changed, {counts['unchanged']} unchanged")
+        if self.created:
+            out.append("new ties: " + ", ".join(f"{n} {what}" for what, n in sorted(self.created.items())))
+        if self.defaulted_certainty:
+            out.append(f"{self.defaulted_certainty} row(s) had a blank certainty and were taken as 'certain'")
+        out.extend(f"note: {w}" for w in self.warnings)
+        return out
+
+
+# --- reading files -----------------------------------------------------------------------
+
+
+def read_workbook(path: str | Path, *, size_limit: int) -> tuple[dict[str, list[Row]], list[Problem], list[str], str]:
+    """Return the rows of every workbook file in a folder or .zip, the problems, warnings and a SHA-256.
+
+    Files are decoded as UTF-8 (a byte-order mark is accepted); anything else is a problem.
+    """
+    path = Path(path)
+    if not path.exists():
+        raise WorkbookError([Problem(str(path), 0, "(path)", "no such file or folder")])
+    raw, problems = _raw_files(path, size_limit)
+    if problems:
+        raise WorkbookError(problems)
+    digest = hashlib.sha256()
+    tables: dict[str, list[Row]] = {}
+    warnings: list[str] = []
+    for name in sorted(raw):
+        digest.update(name.encode() + b"\0" + raw[name] + b"\0")
+        if name not in FILES:
+            warnings.append(f"{name} is not a workbook file and was ignored (workbook files: {', '.join(FILES)})")
+            continue
+        rows = _parse_csv(name, raw[name], problems, warnings)
+        if rows is not None:
+            tables[name] = rows
+    if not tables and not problems:
+        problems.append(Problem(str(path), 0, "(workbook)", f"no workbook files found; expected some of: {', '.join(FILES)}"))
+    return tables, problems, warnings, digest.hexdigest()
+
+
+def _raw_files(path: Path, size_limit: int) -> tuple[dict[str, bytes], list[Problem]]:
+    problems: list[Problem] = []
+    if path.is_dir():
+        files = sorted(p for p in path.iterdir() if p.is_file() and p.suffix.lower() == ".csv")
+        total = sum(p.stat().st_size for p in files)
+        if total > size_limit:
+            return {}, [Problem(str(path), 0, "(size)", _too_big(total, size_limit))]
+        return {p.name: p.read_bytes() for p in files}, problems
+    if not zipfile.is_zipfile(path):
+        return {}, [Problem(str(path), 0, "(path)", "not a folder or a .zip file of CSV files")]
+    if path.stat().st_size > size_limit:
+        return {}, [Problem(str(path), 0, "(size)", _too_big(path.stat().st_size, size_limit))]
+    with zipfile.ZipFile(path) as archive:
+        members = [m for m in archive.infolist() if not m.is_dir()]
+        for member in members:
+            parts = PurePosixPath(member.filename.replace("\\", "/")).parts
+            if member.filename.startswith(("/", "\\")) or ".." in parts or (parts and ":" in parts[0]):
+                problems.append(Problem(member.filename, 0, "(zip)", "path points outside the workbook folder; refused"))
+        total = sum(m.file_size for m in members)
+        if total > size_limit:
+            problems.append(Problem(str(path), 0, "(size)", _too_big(total, size_limit) + " when unpacked"))
+        if problems:
+            return {}, problems
+        csvs = [m for m in members if m.filename.lower().endswith(".csv") and "__MACOSX" not in m.filename]
+        folders = {PurePosixPath(m.filename).parent for m in csvs}
+        if len(folders) > 1:
+            return {}, [Problem(str(path), 0, "(zip)", "the CSV files must sit together in one folder of the zip")]
+        return {PurePosixPath(m.filename).name: archive.read(m) for m in csvs}, problems
+
+
+def _too_big(size: int, limit: int) -> str:
+    return f"{size / 1e6:.1f} MB is over the import size limit of {limit / 1e6:.0f} MB (setting ATTESTA_UPLOAD_LIMIT_MB)"
+
+
+def _parse_csv(name: str, data: bytes, problems: list[Problem], warnings: list[str]) -> list[Row] | None:
+    try:
+        text = data.decode("utf-8-sig")
+    except UnicodeDecodeError as error:
+        line = data[: error.start].count(b"\n") + 1
+        problems.append(Problem(name, line, "(encoding)", f"not UTF-8 text (byte 0x{data[error.start]:02x}); save the file as UTF-8"))
+        return None
+    if not text.strip():
+        problems.append(Problem(name, 1, "(file)", f"empty file; expected a header row with {', '.join(FILES[name].columns)}"))
+        return None
+    reader = csv.reader(io.StringIO(text, newline=""))
+    try:
+        header = [h.strip() for h in next(reader)]
+    except csv.Error as error:
+        problems.append(Problem(name, 1, "(file)", f"cannot read the header row: {error}"))
+        return None
+    spec = FILES[name]
+    missing = [c for c in spec.required if c not in header]
+    if missing:
+        problems.append(Problem(name, 1, ", ".join(missing), f"required column(s) missing; the header has {', '.join(header)}"))
+        return None
+    duplicated = sorted({h for h in header if header.count(h) > 1})
+    if duplicated:
+        problems.append(Problem(name, 1, ", ".join(duplicated), "column named twice in the header"))
+        return None
+    unknown = [h for h in header if h and h not in spec.columns]
+    if unknown:
+        warnings.append(f"{name}: column(s) {', '.join(unknown)} are not part of the workbook and were ignored")
+    rows: list[Row] = []
+    try:
+        for record in reader:
+            if not any(cell.strip() for cell in record):
+                continue
+            line = reader.line_num
+            if len(record) > len(header):
+                problems.append(Problem(name, line, "(row)", f"{len(record)} cells but the header has {len(header)} columns"))
+                continue
+            values = {h: record[i] if i < len(record) else "" for i, h in enumerate(header) if h in spec.columns}
+            rows.append(Row(name, line, values))
+    except csv.Error as error:
+        problems.append(Problem(name, reader.line_num, "(row)", f"malformed CSV: {error}"))
+    return rows
+
+
+# --- importing ---------------------------------------------------------------------------
+
+
+def import_workbook(
+    database: Database,
+    path: str | Path,
+    *,
+    size_limit: int,
+    date_settings: DateSettings = DEFAULT_SETTINGS,
+    actor: str = "cli",
+) -> ImportReport:
+    """Import the workbook at ``path`` in one transaction and return what changed.
+
+    Raises WorkbookError (nothing written) when any row has a problem.
+    """
+    tables, problems, warnings, digest = read_workbook(path, size_limit=size_limit)
+    if problems:
+        raise WorkbookError(problems)
+    with database.write() as session:
+        importer = _Importer(session, date_settings)
+        report = importer.run(tables)
+        report.warnings[:0] = warnings
+        report.sha256 = digest
+        if importer.problems:
+            session.rollback()
+            raise WorkbookError(importer.problems, importer.problem_count)
+        if report.changed_anything:
+            report.data_version = _record_import(session, report, Path(path).name, actor)
+        else:
+            report.data_version = session.scalar(select(DataVersion.version)) or 0
+    return report
+
+
+def _record_import(session: Session, report: ImportReport, name: str, actor: str) -> int:
+    """Bump the data version and write one audit entry with the counts and the file hash."""
+    now = datetime.now(timezone.utc).replace(tzinfo=None)
+    session.execute(update(DataVersion).values(version=DataVersion.version + 1, changed_at=now))
+    counts = {file: dict(c) for file, c in report.rows.items()}
+    session.add(
+        AuditEntry(
+            at=now, actor=actor, action="import", table_name=None, record_key=None,
+            after_json=json.dumps({"file": name, "sha256": report.sha256, "rows": counts, "created": dict(report.created)}),
+            summary=f"imported workbook {name}",
+        )
+    )
+    session.flush()
+    return session.scalar(select(DataVersion.version))
+
+
+class _Ref(NamedTuple):
+    """A record known by key: its id (None while a row with problems declared it) and extra facts."""
+
+    id: int | None
+    extra: Any = None
+
+
+class _Importer:
+    """Checks and writes the rows of one workbook inside one write transaction."""
+
+    def __init__(self, session: Session, date_settings: DateSettings):
+        self.session = session
+        self.date_settings = date_settings
+        self.problems: list[Problem] = []
+        self.problem_count = 0
+        self.report = ImportReport()
+        self.now = datetime.now(timezone.utc).replace(tzinfo=None)
+        self.outcomes: dict[tuple[str, int], str] = {}
+        self.term_lines: dict[int, int] = {}  # membership id -> line that gave its term in this import
+        self._load_existing()
+
+    # -- bookkeeping --
+
+    def problem(self, row: Row, column: str, reason: str) -> None:
+        self.problem_count += 1
+        if len(self.problems) < MAX_PROBLEMS:
+            self.problems.append(Problem(row.file, row.line, column, reason))
+
+    @property
+    def writing(self) -> bool:
+        """Once any row has a problem, the rest is only checked: the transaction will be rolled back."""
+        return not self.problem_count
+
+    def count(self, row: Row, outcome: str) -> None:
+        self.report.rows.setdefault(row.file, Counter({"added": 0, "changed": 0, "unchanged": 0}))[outcome] += 1
+        self.outcomes[(row.file, row.line)] = outcome
+
+    def count_as_changed(self, row: Row) -> None:
+        """A row first found unchanged changed something after all (a new variant, a parent)."""
+        if self.outcomes.get((row.file, row.line)) == "unchanged":
+            counts = self.report.rows[row.file]
+            counts["unchanged"] -= 1
+            counts["changed"] += 1
+            self.outcomes[(row.file, row.line)] = "changed"
+
+    def _load_existing(self) -> None:
+        s = self.session
+        self.places = {k: _Ref(i) for k, i in s.execute(select(Place.key, Place.id))}
+        self.repositories = {k: _Ref(i) for k, i in s.execute(select(Repository.key, Repository.id))}
+        self.collections = {
+            k: _Ref(i, r) for k, i, r in s.execute(select(Collection.key, Collection.id, Repository.key).join(Repository))
+        }
+        self.persons = {k: _Ref(i) for k, i in s.execute(select(Person.key, Person.id))}
+        self.aliases = dict(s.execute(select(PersonAlias.key, Person.key).join(Person, Person.id == PersonAlias.person_id)).tuples().all())
+        self.groups = {k: _Ref(i) for k, i in s.execute(select(Group.key, Group.id))}
+        self.sources = {
+            k: _Ref(i, (cal, e, l)) for k, i, cal, e, l in s.execute(
+                select(Source.key, Source.id, Source.calendar, Source.earliest, Source.latest)
+            )
+        }
+        self.kinds = {k: _Ref(i, d) for k, i, d in s.execute(select(RelationKind.key, RelationKind.id, RelationKind.directed))}
+        self.relation_ids = {(k, a, b): i for i, k, a, b in s.execute(
+            select(Relation.id, Relation.kind_id, Relation.person_a_id, Relation.person_b_id))}
+        self.memberships = {
+            (m["person_id"], m["group_id"], m["role"]): dict(m) for m in s.execute(select(Membership.__table__)).mappings()
+        }
+        self.fact_ids = {
+            (f.person_id, f.kind, f.value, f.place_id, f.date_text): f.id for f in s.execute(select(PersonFact)).scalars()
+        }
+        self.names = {(p, n) for p, n in s.execute(select(PersonName.person_id, PersonName.name))}
+        self.identifiers = {(sch, v): p for sch, v, p in s.execute(
+            select(PersonIdentifier.scheme, PersonIdentifier.value, PersonIdentifier.person_id))}
+        self.attestations_by_key: dict[str, tuple[int, str]] = {}
+        self.attestation_signatures: dict[tuple, int] = {}
+        self.deleted_matches = 0
+        self.changed_sources: set[int] = set()
+        self.seen_keys: dict[tuple[str, str], int] = {}
+        for att in s.execute(select(Attestation)).scalars():
+            target = _target_of(att)
+            self.attestations_by_key[att.key] = (att.id, target[0])
+            self.attestation_signatures[_signature(att, target)] = att.id
+
+    # -- cell readers: each returns the parsed value or None, and records a problem --
+
+    def key(self, row: Row, column: str = "key", *, required: bool = True) -> str | None:
+        value = row.get(column)
+        if value is None:
+            if required:
+                self.problem(row, column, "required; a key of letters, digits and . _ : - (at most 100)")
+            return None
+        if not KEY_RE.match(value):
+            self.problem(row, column, f"{value!r} is not a valid key: use letters, digits and . _ : - (at most 100)")
+            return None
+        if column == "key":
+            first = self.seen_keys.setdefault((row.file, value), row.line)
+            if first != row.line:
+                self.problem(row, column, f"duplicate key {value!r} (first used on line {first})")
+                return None
+        return value
+
+    def required(self, row: Row, column: str) -> str | None:
+        value = row.get(column)
+        if value is None:
+            self.problem(row, column, "required; the cell is empty")
+        return value
+
+    def choice(self, row: Row, column: str, allowed: tuple[str, ...], default: str) -> str:
+        value = row.get(column)
+        if value is None:
+            return default
+        if value.lower() not in allowed:
+            self.problem(row, column, f"{value!r} is not one of {', '.join(allowed)}")
+            return default
+        return value.lower()
+
+    def boolean(self, row: Row, column: str) -> bool:
+        value = (row.get(column) or "").lower()
+        if value in TRUE_WORDS:
+            return True
+        if value not in FALSE_WORDS:
+            self.problem(row, column, f"{value!r} is not yes or no")
+        return False
+
+    def number(self, row: Row, column: str, low: float, high: float) -> float | None:
+        value = row.get(column)
+        if value is None:
+            return None
+        try:
+            number = float(value)
+        except ValueError:
+            self.problem(row, column, f"{value!r} is not a number")
+            return None
+        if not low <= number <= high:
+            self.problem(row, column, f"{number} is outside {low}..{high}")
+            return None
+        return number
+
+    def calendar(self, row: Row, column: str = "calendar", default: str | None = "gregorian") -> str | None:
+        value = row.get(column)
+        if value is None:
+            return default
+        try:
+            return check_calendar(value)
+        except DateError as error:
+            self.problem(row, column, str(error))
+            return default
+
+    def date(self, row: Row, column: str, calendar: str | None) -> tuple[str | None, date | None, date | None]:
+        """Return the EDTF text as written and its earliest and latest Gregorian day."""
+        text = row.get(column)
+        if text is None:
+            return None, None, None
+        try:
+            interval = interval_or_none(text, calendar or "gregorian", settings=self.date_settings)
+        except DateError as error:
+            self.problem(row, column, str(error))
+            return text, None, None
+        return text, interval.earliest, interval.latest
+
+    def ref(self, row: Row, column: str, known: dict[str, _Ref], what: str, *, required: bool = False) -> _Ref | None:
+        value = row.get(column)
+        if value is None:
+            if required:
+                self.problem(row, column, f"required; the key of a {what}")
+            return None
+        found = known.get(value)
+        if found is None and known is self.persons and value in self.aliases:
+            found = known.get(self.aliases[value])
+        if found is None:
+            hint = ""
+            if known is self.groups and value in self.persons:
+                hint = f" ({value!r} is a person, not a group)"
+            elif known is self.persons and value in self.groups:
+                hint = f" ({value!r} is a group, not a person)"
+            elif known is self.kinds:
+                hint = f" (known kinds: {', '.join(sorted(self.kinds))}; add it to relation_kinds.csv)"
+            self.problem(row, column, f"unknown {what} {value!r}{hint}")
+        return found
+
+    # -- generic upsert of a keyed record --
+
+    def upsert(self, row: Row, model: type, key: str, values: dict[str, Any], known: dict[str, _Ref], extra: Any = None) -> int | None:
+        """Insert the record of ``key`` or update the columns the file gives; return its id."""
+        ref = known.get(key)
+        if not self.writing:
+            known.setdefault(key, _Ref(None, extra))
+            return None
+        if ref is None:
+            new_id = self.session.execute(model.__table__.insert().values(key=key, **values).returning(model.__table__.c.id)).scalar_one()
+            known[key] = _Ref(new_id, extra)
+            self.count(row, "added")
+            return new_id
+        table = model.__table__
+        current = self.session.execute(select(*[table.c[c] for c in values]).where(table.c.id == ref.id)).one()
+        changes = {c: v for (c, v), old in zip(values.items(), current) if old != v}
+        if changes:
+            self.session.execute(table.update().where(table.c.id == ref.id).values(**changes))
+            self.count(row, "changed")
+        else:
+            self.count(row, "unchanged")
+        known[key] = _Ref(ref.id, extra)
+        return ref.id
+
+    def present(self, row: Row, pairs: dict[str, Any]) -> dict[str, Any]:
+        """Keep only the columns whose workbook column is in the file's header (absent ones stay as they are)."""
+        return {col: value for col, (source_col, value) in pairs.items() if row.has(source_col)}
+
+    # -- the files --
+
+    def run(self, tables: dict[str, list[Row]]) -> ImportReport:
+        handlers = {
+            "places.csv": self.place, "repositories.csv": self.repository, "collections.csv": self.collection,
+            "persons.csv": self.person, "groups.csv": self.group, "sources.csv": self.source,
+            "relation_kinds.csv": self.relation_kind, "relations.csv": self.relation,
+            "memberships.csv": self.membership, "facts.csv": self.fact,
+        }
+        self.pending_parents: list[tuple[Row, type, int | None, str, str, dict[str, _Ref], str]] = []
+        for name in FILES:
+            for row in tables.get(name, []):
+                handlers[name](row)
+            self._resolve_pending(name)
+        if self.writing and self.changed_sources:
+            self._refresh_undated_attestations()
+        if self.deleted_matches:
+            self.report.warnings.append(
+                f"{self.deleted_matches} row(s) match attestations that were deleted; they stay deleted (restore them instead)"
+            )
+        return self.report
+
+    def place(self, row: Row) -> None:
+        key = self.key(row)
+        name = self.required(row, "name")
+        values = self.present(row, {
+            "name": ("name", name), "variants": ("variants", row.get("variants")),
+            "latitude": ("latitude", self.number(row, "latitude", -90, 90)),
+            "longitude": ("longitude", self.number(row, "longitude", -180, 180)),
+            "identifier": ("identifier", row.get("identifier")),
+        })
+        if key:
+            self.upsert(row, Place, key, values, self.places)
+
+    def repository(self, row: Row) -> None:
+        key = self.key(row)
+        name = self.required(row, "name")
+        place = self.ref(row, "place", self.places, "place")
+        values = self.present(row, {"name": ("name", name), "place_id": ("place", place and place.id), "note": ("note", row.get("note"))})
+        if key:
+            self.upsert(row, Repository, key, values, self.repositories)
+
+    def collection(self, row: Row) -> None:
+        key = self.key(row)
+        name = self.required(row, "name")
+        repository = self.ref(row, "repository", self.repositories, "repository", required=True)
+        values = self.present(row, {
+            "name": ("name", name), "repository_id": ("repository", repository and repository.id),
+            "reference_code": ("reference_code", row.get("reference_code")), "note": ("note", row.get("note")),
+        })
+        if key:
+            self.upsert(row, Collection, key, values, self.collections, extra=row.get("repository"))
+
+    def person(self, row: Row) -> None:
+        key = self.key(row)
+        if key and key in self.aliases:
+            self.problem(row, "key", f"{key!r} is the old key of {self.aliases[key]!r}, merged; use that key")
+            return
+        name = self.required(row, "name")
+        kind = self.choice(row, "kind", PERSON_KINDS, "individual")
+        calendar = self.calendar(row)
+        born = self.date(row, "born", calendar)
+        died = self.date(row, "died", calendar)
+        identifiers = self._identifiers(row)
+        values = self.present(row, {
+            "name": ("name", name), "sort_name": ("sort_name", row.get("sort_name")), "kind": ("kind", kind),
+            "unidentified": ("unidentified", self.boolean(row, "unidentified")),
+            "living": ("living", self.boolean(row, "living")),
+            "born_text": ("born", born[0]), "born_earliest": ("born", born[1]), "born_latest": ("born", born[2]),
+            "died_text": ("died", died[0]), "died_earliest": ("died", died[1]), "died_latest": ("died", died[2]),
+            "calendar": ("calendar", calendar), "note": ("note", row.get("note")),
+        })
+        if not key or name is None:
+            return
+        person_id = self.upsert(row, Person, key, values, self.persons)
+        if person_id is None:
+            return
+        variants = [v.strip() for v in (row.get("variants") or "").split("|") if v.strip()]
+        added = False
+        for variant in [name, *variants]:
+            if (person_id, variant) not in self.names:
+                self.names.add((person_id, variant))
+                self.session.execute(PersonName.__table__.insert().values(person_id=person_id, name=variant, normalized=fold(variant)))
+                added = True
+        for scheme, value in identifiers:
+            owner = self.identifiers.get((scheme, value))
+            if owner is None:
+                self.identifiers[(scheme, value)] = person_id
+                self.session.execute(PersonIdentifier.__table__.insert().values(person_id=person_id, scheme=scheme, value=value))
+                added = True
+            elif owner != person_id:
+                self.problem(row, "identifiers", f"{scheme}:{value} already belongs to another person")
+        if added:
+            self.count_as_changed(row)
+
+    def _identifiers(self, row: Row) -> list[tuple[str, str]]:
+        found = []
+        for item in (row.get("identifiers") or "").split("|"):
+            item = item.strip()
+            if not item:
+                continue
+            scheme, sep, value = item.partition(":")
+            if not sep or not scheme.strip() or not value.strip():
+                self.problem(row, "identifiers", f"{item!r} is not scheme:value (e.g. wikidata:Q1234, viaf:123, local:P7)")
+                continue
+            found.append((scheme.strip().lower(), value.strip()))
+        return found
+
+    def group(self, row: Row) -> None:
+        key = self.key(row)
+        name = self.required(row, "name")
+        place = self.ref(row, "place", self.places, "place")
+        start = self.date(row, "start", "gregorian")
+        end = self.date(row, "end", "gregorian")
+        values = self.present(row, {
+            "name": ("name", name), "kind": ("kind", row.get("kind")), "place_id": ("place", place and place.id),
+            "start_text": ("start", start[0]), "start_earliest": ("start", start[1]), "start_latest": ("start", start[2]),
+            "end_text": ("end", end[0]), "end_earliest": ("end", end[1]), "end_latest": ("end", end[2]),
+            "note": ("note", row.get("note")),
+        })
+        if key:
+            group_id = self.upsert(row, Group, key, values, self.groups)
+            if row.has("parent"):
+                self.pending_parents.append((row, Group, group_id, "parent_id", "parent", self.groups, "group"))
+
+    def source(self, row: Row) -> None:
+        key = self.key(row)
+        collection = self.ref(row, "collection", self.collections, "collection")
+        repository_key = row.get("repository")
+        if repository_key and repository_key not in self.repositories:
+            self.problem(row, "repository", f"unknown repository {repository_key!r}")
+        elif repository_key and collection is not None and collection.extra and collection.extra != repository_key:
+            self.problem(row, "collection", f"collection {row.get('collection')!r} belongs to repository {collection.extra!r}, not {repository_key!r}")
+        elif repository_key and row.get("collection") is None:
+            self.problem(row, "collection", "an archival source needs the key of its collection (define it in collections.csv)")
+        calendar = self.calendar(row)
+        when = self.date(row, "date", calendar)
+        received = self.date(row, "received", calendar)
+        place_from = self.ref(row, "place_from", self.places, "place")
+        place_to = self.ref(row, "place_to", self.places, "place")
+        values = self.present(row, {
+            "collection_id": ("collection", collection and collection.id), "reference": ("reference", row.get("reference")),
+            "kind": ("kind", row.get("kind")), "title": ("title", row.get("title")), "author": ("author", row.get("author")),
+            "publisher": ("publisher", row.get("publisher")), "year": ("year", row.get("year")), "pages": ("pages", row.get("pages")),
+            "date_text": ("date", when[0]), "earliest": ("date", when[1]), "latest": ("date", when[2]),
+            "calendar": ("calendar", calendar),
+            "place_from_id": ("place_from", place_from and place_from.id), "place_to_id": ("place_to", place_to and place_to.id),
+            "received_text": ("received", received[0]), "received_earliest": ("received", received[1]),
+            "received_latest": ("received", received[2]), "url": ("url", row.get("url")), "note": ("note", row.get("note")),
+        })
+        if not key:
+            return
+        old = self.sources.get(key)
+        source_id = self.upsert(row, Source, key, values, self.sources)
+        if source_id is not None:
+            current = self.session.execute(select(Source.calendar, Source.earliest, Source.latest).where(Source.id == source_id)).one()
+            self.sources[key] = _Ref(source_id, tuple(current))
+            if old is not None and old.extra != tuple(current):
+                self.changed_sources.add(source_id)
+        if row.has("copy_of"):
+            self.pending_parents.append((row, Source, source_id, "copy_of_id", "copy_of", self.sources, "source"))
+
+    def relation_kind(self, row: Row) -> None:
+        key = self.key(row)
+        directed = self.boolean(row, "directed")
+        existing = self.kinds.get(key) if key else None
+        if existing is not None and existing.id is not None and row.has("directed") and existing.extra != directed:
+            used = sum(1 for (kind_id, _, _) in self.relation_ids if kind_id == existing.id)
+            if used:
+                self.problem(row, "directed", f"kind {key!r} is used by {used} relation(s); directed cannot change while it is in use")
+        values = self.present(row, {
+            "label": ("label", row.get("label") or key), "directed": ("directed", directed),
+            "role_a": ("role_a", row.get("role_a")), "role_b": ("role_b", row.get("role_b")),
+        })
+        if key:
+            kind_id = self.upsert(row, RelationKind, key, values, self.kinds, extra=directed if row.has("directed") else (existing.extra if existing else False))
+            if row.has("parent"):
+                self.pending_parents.append((row, RelationKind, kind_id, "parent_id", "parent", self.kinds, "relation kind"))
+
+    def _resolve_pending(self, file: str) -> None:
+        """Set references to records of the same file (group parent, copy of, parent kind) once all exist."""
+        for row, model, record_id, column, cell, known, what in [p for p in self.pending_parents if p[0].file == file]:
+            target = self.ref(row, cell, known, what)
+            if target is not None and target.id is not None and target.id == record_id:
+                self.problem(row, cell, "a record cannot refer to itself here")
+                continue
+            if not self.writing or record_id is None:
+                continue
+            value = target.id if target else None
+            table = model.__table__
+            if self.session.execute(select(table.c[column]).where(table.c.id == record_id)).scalar_one() != value:
+                self.session.execute(table.update().where(table.c.id == record_id).values({column: value}))
+                self.count_as_changed(row)
+        self.pending_parents = [p for p in self.pending_parents if p[0].file != file]
+
+    # -- attestations --
+
+    def _attestation_fields(self, row: Row, *, has_calendar: bool) -> dict[str, Any] | None:
+        source = self.ref(row, "source", self.sources, "source", required=True)
+        evidence = self.choice(row, "evidence", EVIDENCE_KINDS, "original")
+        certainty = self.choice(row, "certainty", CERTAINTIES, "certain")
+        if row.get("certainty") is None:
+            self.report.defaulted_certainty += 1
+        identification = self.choice(row, "identification", CERTAINTIES, "certain")
+        calendar = self.calendar(row, default=None) if has_calendar else None
+        source_calendar, source_earliest, source_latest = source.extra if source and source.extra else ("gregorian", None, None)
+        date_text, earliest, latest = self.date(row, "date", calendar or source_calendar)
+        if date_text is None:
+            earliest, latest = source_earliest, source_latest
+        place = self.ref(row, "place", self.places, "place") if row.has("place") and row.file == "relations.csv" else None
+        if source is None:
+            return None
+        return {
+            "source_id": source.id, "locus": row.get("locus"), "evidence": evidence, "date_text": date_text,
+            "calendar": calendar, "earliest": earliest, "latest": latest, "place_id": place and place.id,
+            "certainty": certainty, "identification": identification, "quote": row.get("quote"), "note": row.get("note"),
+        }
+
+    def _write_attestation(self, row: Row, target_column: str, target_id: int, fields: dict[str, Any]) -> None:
+        key = self.key(row, required=False) if row.get("key") else None
+        if row.get("key") and key is None:
+            return
+        if not self.writing:
+            return
+        fields = {**fields, target_column: target_id}
+        for other in ("relation_id", "membership_id", "fact_id"):
+            fields.setdefault(other, None)
+        table = Attestation.__table__
+        if key is not None and key in self.attestations_by_key:
+            att_id, kind = self.attestations_by_key[key]
+            if kind != target_column:
+                self.problem(row, "key", f"{key!r} is the key of a {kind.removesuffix('_id')} attestation, not of a row of {row.file}")
+                return
+            columns = list(fields)
+            current = self.session.execute(select(*[table.c[c] for c in columns]).where(table.c.id == att_id)).one()
+            changes = {c: fields[c] for c, old in zip(columns, current) if old != fields[c]}
+            if changes:
+                self.session.execute(table.update().where(table.c.id == att_id).values(**changes))
+                self.count(row, "changed")
+            else:
+                self.count(row, "unchanged")
+            return
+        signature = _signature_of_fields(fields, target_column)
+        match = self.attestation_signatures.get(signature)
+        if match is not None and key is None:
+            if self.session.execute(select(Attestation.deleted_at).where(Attestation.id == match)).scalar() is not None:
+                self.deleted_matches += 1
+            self.count(row, "unchanged")
+            return
+        key = key or self._new_attestation_key(signature)
+        new_id = self.session.execute(
+            table.insert().values(key=key, entered_at=self.now, **fields).returning(table.c.id)
+        ).scalar_one()
+        self.attestations_by_key[key] = (new_id, target_column)
+        self.attestation_signatures[signature] = new_id
+        self.count(row, "added")
+
+    def _new_attestation_key(self, signature: tuple) -> str:
+        digest = hashlib.sha256(repr(signature).encode()).hexdigest()
+        key = f"att-{digest[:12]}"
+        n = 1
+        while key in self.attestations_by_key:
+            n += 1
+            key = f"att-{digest[:12]}-{n}"
+        return key
+
+    def relation(self, row: Row) -> None:
+        if row.get("key"):
+            self.key(row)
+        person = self.ref(row, "person", self.persons, "person", required=True)
+        other = self.ref(row, "other", self.persons, "person", required=True)
+        kind = self.ref(row, "kind", self.kinds, "relation kind", required=True)
+        fields = self._attestation_fields(row, has_calendar=True)
+        if None in (person, other, kind, fields) or not self.writing:
+            return
+        a, b = person.id, other.id
+        names = (row.get("person_as_written"), row.get("other_as_written"))
+        if not kind.extra and a > b:  # undirected: the pair is stored sorted, names follow their person
+            a, b, names = b, a, (names[1], names[0])
+        relation_id = self.relation_ids.get((kind.id, a, b))
+        if relation_id is None:
+            relation_id = self.session.execute(
+                Relation.__table__.insert().values(kind_id=kind.id, kind_directed=kind.extra, person_a_id=a, person_b_id=b)
+                .returning(Relation.__table__.c.id)
+            ).scalar_one()
+            self.relation_ids[(kind.id, a, b)] = relation_id
+            self.report.created["relations"] += 1
+        fields.update(name_a_as_written=names[0], name_b_as_written=names[1])
+        self._write_attestation(row, "relation_id", relation_id, fields)
+
+    def membership(self, row: Row) -> None:
+        if row.get("key"):
+            self.key(row)
+        person = self.ref(row, "person", self.persons, "person", required=True)
+        group = self.ref(row, "group", self.groups, "group", required=True)
+        fields = self._attestation_fields(row, has_calendar=False)
+        calendar = fields and self._source_calendar(row)
+        start = self.date(row, "start", calendar)
+        end = self.date(row, "end", calendar)
+        if None in (person, group, fields) or not self.writing:
+            return
+        role = row.get("role") or ""
+        term = {"start_text": start[0], "start_earliest": start[1], "start_latest": start[2],
+                "end_text": end[0], "end_earliest": end[1], "end_latest": end[2]}
+        membership = self.memberships.get((person.id, group.id, role))
+        table = Membership.__table__
+        if membership is None:
+            new_id = self.session.execute(
+                table.insert().values(person_id=person.id, group_id=group.id, role=role, **term).returning(table.c.id)
+            ).scalar_one()
+            membership = {"id": new_id, **term}
+            self.memberships[(person.id, group.id, role)] = membership
+            self.report.created["memberships"] += 1
+            self.term_lines[new_id] = row.line
+        else:
+            # A term given on a row overrides the stored one; two rows of one import must agree.
+            given = {c: v for c, v in term.items() if v is not None}
+            first_line = self.term_lines.get(membership["id"])
+            conflicts = [c for c, v in given.items() if membership[c] is not None and membership[c] != v]
+            if conflicts and first_line is not None and first_line != row.line:
+                column = conflicts[0].split("_")[0]
+                self.problem(row, column, f"differs from the term given on line {first_line} for the same membership")
+                return
+            if given:
+                self.term_lines.setdefault(membership["id"], row.line)
+            if any(membership[c] != v for c, v in given.items()):
+                self.session.execute(table.update().where(table.c.id == membership["id"]).values(**given))
+                membership.update(given)
+                self._write_attestation(row, "membership_id", membership["id"], {**fields, "name_a_as_written": None, "name_b_as_written": None})
+                self.count_as_changed(row)
+                return
+        fields.update(name_a_as_written=None, name_b_as_written=None)
+        self._write_attestation(row, "membership_id", membership["id"], fields)
+
+    def _source_calendar(self, row: Row) -> str:
+        source = self.sources.get(row.get("source") or "")
+        return source.extra[0] if source and source.extra else "gregorian"
+
+    def fact(self, row: Row) -> None:
+        if row.get("key"):
+            self.key(row)
+        person = self.ref(row, "person", self.persons, "person", required=True)
+        kind = self.choice(row, "fact", FACT_KINDS, "other")
+        place = self.ref(row, "place", self.places, "place")
+        source_calendar = self._source_calendar(row)
+        date_text, earliest, latest = self.date(row, "date", source_calendar)
+        row_without_date = Row(row.file, row.line, {k: v for k, v in row.values.items() if k != "date"})
+        fields = self._attestation_fields(row_without_date, has_calendar=False)
+        if None in (person, fields) or not self.writing:
+            return
+        value = row.get("value") or ""
+        identity = (person.id, kind, value, place and place.id, date_text)
+        fact_id = self.fact_ids.get(identity)
+        if fact_id is None:
+            table = PersonFact.__table__
+            fact_id = self.session.execute(
+                table.insert().values(person_id=person.id, kind=kind, value=value, place_id=place and place.id,
+                                      date_text=date_text, calendar=source_calendar, earliest=earliest, latest=latest)
+                .returning(table.c.id)
+            ).scalar_one()
+            self.fact_ids[identity] = fact_id
+            self.report.created["facts"] += 1
+        fields.update(name_a_as_written=None, name_b_as_written=None)
+        self._write_attestation(row, "fact_id", fact_id, fields)
+
+    def _refresh_undated_attestations(self) -> None:
+        """Attestations without a date of their own follow their source's date."""
+        for source_id in self.changed_sources:
+            earliest, latest = self.session.execute(select(Source.earliest, Source.latest).where(Source.id == source_id)).one()
+            self.session.execute(
+                update(Attestation).where(Attestation.source_id == source_id, Attestation.date_text.is_(None))
+                .values(earliest=earliest, latest=latest)
+            )
+
+
+def _target_of(att: Attestation) -> tuple[str, int]:
+    if att.relation_id is not None:
+        return "relation_id", att.relation_id
+    if att.membership_id is not None:
+        return "membership_id", att.membership_id
+    return "fact_id", att.fact_id
+
+
+SIGNATURE_FIELDS = ("source_id", "locus", "evidence", "date_text", "calendar", "place_id", "certainty",
+                    "identification", "name_a_as_written", "name_b_as_written", "quote", "note")
+
+
+def _signature(att: Attestation, target: tuple[str, int]) -> tuple:
+    return (*target, *(getattr(att, f) for f in SIGNATURE_FIELDS))
+
+
+def _signature_of_fields(fields: dict[str, Any], target_column: str) -> tuple:
+    return (target_column, fields[target_column], *(fields.get(f) for f in SIGNATURE_FIELDS))
+
+
+# --- exporting ---------------------------------------------------------------------------
+
+
+def export_workbook(session: Session, folder: str | Path) -> dict[str, int]:
+    """Write every workbook file of the dataset into ``folder``; return the row count per file.
+
+    Soft-deleted attestations are left out: they stay in the database and its audit trail.
+    """
+    folder = Path(folder)
+    folder.mkdir(parents=True, exist_ok=True)
+    tables = _export_rows(session)
+    for name, rows in tables.items():
+        with open(folder / name, "w", encoding="utf-8", newline="") as handle:
+            writer = csv.writer(handle, lineterminator="\n")
+            writer.writerow(FILES[name].columns)
+            for row in rows:
+                writer.writerow(["" if row.get(c) is None else row[c] for c in FILES[name].columns])
+    return {name: len(rows) for name, rows in tables.items()}
+
+
+def _yes(value: bool) -> str:
+    return "yes" if value else "no"
+
+
+def _number(value: float | None) -> str | None:
+    return None if value is None else repr(value)
+
+
+def _export_rows(s: Session) -> dict[str, list[dict[str, Any]]]:
+    place = dict(s.execute(select(Place.id, Place.key)).all())
+    repository = dict(s.execute(select(Repository.id, Repository.key)).all())
+    collection = dict(s.execute(select(Collection.id, Collection.key)).all())
+    person = dict(s.execute(select(Person.id, Person.key)).all())
+    group = dict(s.execute(select(Group.id, Group.key)).all())
+    source = dict(s.execute(select(Source.id, Source.key)).all())
+    kind = dict(s.execute(select(RelationKind.id, RelationKind.key)).all())
+    collection_repository = dict(s.execute(select(Collection.id, Collection.repository_id)).all())
+    variants: dict[int, list[str]] = {}
+    for person_id, name in s.execute(select(PersonName.person_id, PersonName.name).order_by(PersonName.id)):
+        variants.setdefault(person_id, []).append(name)
+    identifiers: dict[int, list[str]] = {}
+    for person_id, scheme, value in s.execute(
+        select(PersonIdentifier.person_id, PersonIdentifier.scheme, PersonIdentifier.value).order_by(PersonIdentifier.id)
+    ):
+        identifiers.setdefault(person_id, []).append(f"{scheme}:{value}")
+
+    out: dict[str, list[dict[str, Any]]] = {name: [] for name in FILES}
+    for p in s.scalars(select(Place).order_by(Place.id)):
+        out["places.csv"].append({"key": p.key, "name": p.name, "variants": p.variants, "latitude": _number(p.latitude),
+                                  "longitude": _number(p.longitude), "identifier": p.identifier})
+    for r in s.scalars(select(Repository).order_by(Repository.id)):
+        out["repositories.csv"].append({"key": r.key, "name": r.name, "place": place.get(r.place_id), "note": r.note})
+    for c in s.scalars(select(Collection).order_by(Collection.id)):
+        out["collections.csv"].append({"key": c.key, "repository": repository[c.repository_id], "name": c.name,
+                                       "reference_code": c.reference_code, "note": c.note})
+    for p in s.scalars(select(Person).order_by(Person.id)):
+        out["persons.csv"].append({
+            "key": p.key, "name": p.name, "sort_name": p.sort_name, "kind": p.kind, "unidentified": _yes(p.unidentified),
+            "living": _yes(p.living), "variants": "|".join(v for v in variants.get(p.id, []) if v != p.name),
+            "born": p.born_text, "died": p.died_text, "calendar": p.calendar,
+            "identifiers": "|".join(identifiers.get(p.id, [])), "note": p.note,
+        })
+    for g in s.scalars(select(Group).order_by(Group.id)):
+        out["groups.csv"].append({"key": g.key, "name": g.name, "kind": g.kind, "place": place.get(g.place_id),
+                                  "parent": group.get(g.parent_id), "start": g.start_text, "end": g.end_text, "note": g.note})
+    for x in s.scalars(select(Source).order_by(Source.id)):
+        out["sources.csv"].append({
+            "key": x.key, "repository": repository.get(collection_repository.get(x.collection_id)),
+            "collection": collection.get(x.collection_id), "reference": x.reference, "kind": x.kind, "title": x.title,
+            "author": x.author, "publisher": x.publisher, "year": x.year, "pages": x.pages, "date": x.date_text,
+            "calendar": x.calendar, "place_from": place.get(x.place_from_id), "place_to": place.get(x.place_to_id),
+            "received": x.received_text, "copy_of": source.get(x.copy_of_id), "url": x.url, "note": x.note,
+        })
+    for k in s.scalars(select(RelationKind).order_by(RelationKind.id)):
+        out["relation_kinds.csv"].append({"key": k.key, "label": k.label, "directed": _yes(k.directed), "role_a": k.role_a,
+                                          "role_b": k.role_b, "parent": kind.get(k.parent_id)})
+    alive = Attestation.deleted_at.is_(None)
+    common = lambda a: {  # noqa: E731 - the columns every attestation row shares
+        "key": a.key, "source": source[a.source_id], "locus": a.locus, "evidence": a.evidence, "date": a.date_text,
+        "certainty": a.certainty, "quote": a.quote, "note": a.note,
+    }
+    for a, r in s.execute(select(Attestation, Relation).join(Relation).where(alive).order_by(Attestation.id)):
+        out["relations.csv"].append({
+            **common(a), "person": person[r.person_a_id], "other": person[r.person_b_id], "kind": kind[r.kind_id],
+            "calendar": a.calendar, "place": place.get(a.place_id), "identification": a.identification,
+            "person_as_written": a.name_a_as_written, "other_as_written": a.name_b_as_written,
+        })
+    for a, m in s.execute(select(Attestation, Membership).join(Membership).where(alive).order_by(Attestation.id)):
+        out["memberships.csv"].append({**common(a), "person": person[m.person_id], "group": group[m.group_id],
+                                       "role": m.role or None, "start": m.start_text, "end": m.end_text})
+    for a, f in s.execute(select(Attestation, PersonFact).join(PersonFact).where(alive).order_by(Attestation.id)):
+        out["facts.csv"].append({**common(a), "date": f.date_text, "person": person[f.person_id], "fact": f.kind,
+                                 "value": f.value or None, "place": place.get(f.place_id)})
+    return out

@@ -52,8 +52,9 @@ shift || true
 case "$command" in
   demo)
     setup_venv
-    .venv/bin/attesta demo --db demo.db --replace
-    exec .venv/bin/attesta serve --db demo.db "$@"
+    demo_db=${ATTESTA_DEMO_DB:-demo.db}
+    .venv/bin/attesta demo --db "$demo_db" --replace
+    exec .venv/bin/attesta serve --db "$demo_db" "$@"
     ;;
   test)
     setup_venv

@@ -44,5 +44,6 @@ class Settings:
         return cls(
             database_url=database_url(database),
             upload_limit_bytes=int(float(limit) * 1024 * 1024) if limit else DEFAULT_UPLOAD_LIMIT,
+            busy_timeout_ms=int(os.environ.get("ATTESTA_BUSY_TIMEOUT_MS", "10000")),
             dataset_name=os.environ.get("ATTESTA_DATASET_NAME", "Attesta dataset"),
         )

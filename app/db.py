@@ -76,11 +76,8 @@ class Database:
     @contextmanager
     def read(self) -> Iterator[Session]:
         """Yield a session for reading; nothing it does is committed."""
-        with self._reader() as session:
-            try:
-                yield session
-            finally:
-                session.rollback()
+        with self._reader() as session:  # closing ends the transaction and detaches what was loaded
+            yield session
 
     @contextmanager
     def write(self) -> Iterator[Session]:

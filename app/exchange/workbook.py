@@ -369,7 +369,7 @@ class _Importer:
             k: _Ref(i, r) for k, i, r in s.execute(select(Collection.key, Collection.id, Repository.key).join(Repository))
         }
         self.persons = {k: _Ref(i) for k, i in s.execute(select(Person.key, Person.id))}
-        self.aliases = dict(s.execute(select(PersonAlias.key, Person.key).join(Person, Person.id == PersonAlias.person_id)).tuples().all())
+        self.aliases = dict(s.execute(select(PersonAlias.key, Person.key).join(Person, Person.id == PersonAlias.person_id)).all())
         self.groups = {k: _Ref(i) for k, i in s.execute(select(Group.key, Group.id))}
         self.sources = {
             k: _Ref(i, (cal, e, l)) for k, i, cal, e, l in s.execute(

@@ -1,0 +1,130 @@
+"""The attesta command: each bad input gets a clear message, a non-zero exit, and changes nothing."""
+
+from __future__ import annotations
+
+import os
+import sqlite3
+import subprocess
+import sys
+from pathlib import Path
+
+import pytest
+
+from tests.workbooks import small_world, write_workbook
+
+ATTESTA = [sys.executable, "-m", "app.cli"]
+ROOT = Path(__file__).resolve().parent.parent
+
+
+def attesta(*args: str, env: dict[str, str] | None = None) -> subprocess.CompletedProcess:
+    environment = {k: v for k, v in os.environ.items() if not k.startswith("ATTESTA_")} | (env or {})
+    return subprocess.run([*ATTESTA, *args], capture_output=True, text=True, cwd=ROOT, env=environment, timeout=120)
+
+
+def counts(db: Path) -> dict[str, int]:
+    with sqlite3.connect(db) as connection:
+        tables = [r[0] for r in connection.execute("SELECT name FROM sqlite_master WHERE type='table'")]
+        return {t: connection.execute(f'SELECT count(*) FROM "{t}"').fetchone()[0] for t in tables}
+
+
+@pytest.fixture
+def initialized(tmp_path: Path) -> Path:
+    db = tmp_path / "cli.db"
+    result = attesta("init", "--db", str(db))
+    assert result.returncode == 0, result.stderr
+    return db
+
+
+def test_init_import_export(initialized, tmp_path):
+    folder = write_workbook(tmp_path / "wb", small_world())
+    result = attesta("import", "--db", str(initialized), str(folder))
+    assert result.returncode == 0, result.stderr
+    assert "persons.csv: 4 added" in result.stdout
+    assert "taken as 'certain'" in result.stdout
+    again = attesta("import", "--db", str(initialized), str(folder))
+    assert "(nothing changed)" in again.stdout
+    assert attesta("init", "--db", str(initialized)).returncode == 0  # upgrading a current database is harmless
+    out = tmp_path / "out"
+    exported = attesta("export", "--db", str(initialized), str(out))
+    assert exported.returncode == 0 and (out / "relations.csv").exists()
+
+
+def test_database_from_the_environment(tmp_path):
+    db = tmp_path / "env.db"
+    result = attesta("init", env={"ATTESTA_DATABASE_URL": f"sqlite:///{db}"})
+    assert result.returncode == 0 and db.exists()
+
+
+def test_malformed_workbook(initialized, tmp_path):
+    world = small_world()
+    world["relations.csv"][1]["person"] = "p-ghost"
+    before = counts(initialized)
+    result = attesta("import", "--db", str(initialized), str(write_workbook(tmp_path / "wb", world)))
+    assert result.returncode == 1
+    assert "relations.csv:3: person: unknown person 'p-ghost'" in result.stderr
+    assert "nothing was imported" in result.stderr
+    assert counts(initialized) == before
+
+
+def test_wrong_workbook_path(initialized, tmp_path):
+    result = attesta("import", "--db", str(initialized), str(tmp_path / "missing"))
+    assert result.returncode == 1 and "no such file or folder" in result.stderr
+
+
+def test_missing_database(tmp_path):
+    result = attesta("import", "--db", str(tmp_path / "none.db"), str(tmp_path))
+    assert result.returncode == 1 and "attesta init" in result.stderr
+    assert not (tmp_path / "none.db").exists()
+
+
+def test_database_of_a_newer_schema(initialized, tmp_path):
+    with sqlite3.connect(initialized) as connection:
+        connection.execute("UPDATE alembic_version SET version_num = 'zz99_newer'")
+    before = counts(initialized)
+    for args in (("init",), ("import", str(write_workbook(tmp_path / "wb", small_world())))):
+        result = attesta(*args[:1], "--db", str(initialized), *args[1:])
+        assert result.returncode == 1
+        assert "newer Attesta" in result.stderr
+    assert counts(initialized) == before
+
+
+def test_locked_database(initialized, tmp_path):
+    folder = write_workbook(tmp_path / "wb", small_world())
+    holder = sqlite3.connect(initialized, isolation_level=None)
+    holder.execute("BEGIN IMMEDIATE")
+    holder.execute("UPDATE data_version SET version = version")
+    try:
+        result = subprocess.run(
+            [*ATTESTA, "import", "--db", str(initialized), str(folder)], capture_output=True, text=True, cwd=ROOT,
+            env={**os.environ, "ATTESTA_BUSY_TIMEOUT_MS": "200"}, timeout=120,
+        )
+    finally:
+        holder.execute("ROLLBACK")
+        holder.close()
+    assert result.returncode == 1
+    assert "locked by another process" in result.stderr
+    assert counts(initialized)["person"] == 0
+
+
+def test_non_utf8_csv(initialized, tmp_path):
+    folder = write_workbook(tmp_path / "wb", small_world())
+    (folder / "persons.csv").write_bytes("key,name\np-a,Jos\u00e9\n".encode("cp1252"))
+    result = attesta("import", "--db", str(initialized), str(folder))
+    assert result.returncode == 1
+    assert "persons.csv:2: (encoding): not UTF-8 text" in result.stderr
+    assert counts(initialized)["person"] == 0
+
+
+def test_file_over_the_size_limit(initialized, tmp_path):
+    folder = write_workbook(tmp_path / "wb", small_world())
+    result = attesta("import", "--db", str(initialized), str(folder), env={"ATTESTA_UPLOAD_LIMIT_MB": "0.001"})
+    assert result.returncode == 1 and "over the import size limit" in result.stderr
+    assert counts(initialized)["person"] == 0
+
+
+def test_demo_refuses_to_overwrite_without_replace(tmp_path):
+    target = tmp_path / "demo.db"
+    target.write_bytes(b"precious")
+    result = attesta("demo", "--db", str(target))
+    assert result.returncode == 1 and "--replace" in result.stderr
+    assert target.read_bytes() == b"precious"

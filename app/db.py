@@ -135,9 +135,24 @@ def upgrade(database: Database) -> None:
     if revision is None and _has_foreign_tables(database.engine):
         raise SchemaError("this file holds tables that are not an Attesta database; refusing to touch it")
     config = alembic_config(database.url)
-    with database.engine.begin() as connection:
-        config.attributes["connection"] = connection
-        command.upgrade(config, "head")
+    sqlite = database.engine.dialect.name == "sqlite"
+    with database.engine.connect() as connection:
+        raw = connection.connection.driver_connection
+        if sqlite:
+            # A migration may rebuild a table that other rows point to; SQLite only lets foreign
+            # keys be switched off outside a transaction, so they are checked once at the end instead.
+            raw.execute("PRAGMA foreign_keys = OFF")
+        try:
+            with connection.execution_options(attesta_write=True).begin():
+                config.attributes["connection"] = connection
+                command.upgrade(config, "head")
+                if sqlite:
+                    broken = connection.exec_driver_sql("PRAGMA foreign_key_check").fetchall()
+                    if broken:
+                        raise SchemaError(f"the upgrade would break {len(broken)} reference(s), e.g. {broken[0]}; nothing was changed")
+        finally:
+            if sqlite:
+                raw.execute("PRAGMA foreign_keys = ON")
 
 
 def check_schema(database: Database) -> None:

@@ -1,0 +1,90 @@
+"""The web application: ``create_app(settings)`` builds one instance on one database.
+
+Serve it with ``uvicorn app.main:app_from_env --factory`` (settings from ``ATTESTA_*``).
+"""
+
+from __future__ import annotations
+
+from collections.abc import AsyncIterator
+from contextlib import asynccontextmanager
+from http import HTTPStatus
+
+from fastapi import FastAPI, Request
+from fastapi.exceptions import RequestValidationError
+from fastapi.responses import Response
+from fastapi.staticfiles import StaticFiles
+from starlette.exceptions import HTTPException as StarletteHTTPException
+
+from app.config import Settings
+from app.db import Database, DatabaseError, check_schema
+from app.views import home
+from app.views.common import STATIC_DIR, render_error
+
+__all__ = ["app_from_env", "create_app"]
+
+DESCRIPTION = (
+    "Persons, documents and the ties the documents attest. Every page `/X` has a JSON twin "
+    "`/api/X` built from the same view-model. Errors under `/api/` are JSON objects "
+    '`{"error": ..., "detail": ...}`.'
+)
+
+
+def create_app(settings: Settings) -> FastAPI:
+    """Return the web app for ``settings``; raises SchemaError if the database is missing or too new."""
+    database = Database(settings.database_url, busy_timeout_ms=settings.busy_timeout_ms)
+    try:
+        check_schema(database)
+    except DatabaseError:
+        database.dispose()
+        raise
+
+    @asynccontextmanager
+    async def lifespan(_app: FastAPI) -> AsyncIterator[None]:
+        yield
+        database.dispose()
+
+    # The interactive API pages would load their scripts from a CDN; the site makes no
+    # outside request of any kind, so only the OpenAPI document itself is served.
+    app = FastAPI(title="Attesta", description=DESCRIPTION, docs_url=None, redoc_url=None, lifespan=lifespan)
+    app.state.settings = settings
+    app.state.database = database
+
+    app.mount("/static", StaticFiles(directory=STATIC_DIR), name="static")
+    app.include_router(home.router)
+
+    app.add_exception_handler(StarletteHTTPException, _http_error)
+    app.add_exception_handler(RequestValidationError, _invalid_request)
+    return app
+
+
+def app_from_env() -> FastAPI:
+    """Return the app configured from ``ATTESTA_*`` environment variables (a uvicorn factory)."""
+    return create_app(Settings.from_env())
+
+
+def _http_error(request: Request, exc: StarletteHTTPException) -> Response:
+    phrase = HTTPStatus(exc.status_code).phrase
+    detail = exc.detail
+    if detail == phrase:  # raised by routing itself, with no word of what was asked
+        if exc.status_code == 404:
+            detail = f"There is nothing at {request.url.path}."
+        elif exc.status_code == 405:
+            detail = f"{request.url.path} does not answer {request.method} requests."
+    error = "bad parameter" if exc.status_code == 400 else phrase.lower()
+    return render_error(request, exc.status_code, error, str(detail), headers=exc.headers)
+
+
+def _invalid_request(request: Request, exc: RequestValidationError) -> Response:
+    problems = [_describe(problem) for problem in exc.errors()]
+    return render_error(request, 400, "bad parameter", "; ".join(problems))
+
+
+def _describe(problem: dict) -> str:
+    """Say which parameter is wrong and what it accepts, from one validation problem."""
+    location = [str(part) for part in problem.get("loc", ())]
+    where, name = (location[0], ".".join(location[1:])) if len(location) > 1 else ("request", "".join(location))
+    where = {"query": "query parameter", "path": "path part", "body": "form field"}.get(where, where)
+    if problem.get("type") == "missing":
+        return f"the {where} {name} is required"
+    message = str(problem.get("msg", "not a value this route accepts"))
+    return f"the {where} {name}={problem.get('input')!s} is not accepted: {message[:1].lower()}{message[1:]}"

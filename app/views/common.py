@@ -1,0 +1,241 @@
+"""What every page shares: the read session, the templates, the URL builder and the one renderer.
+
+A view builds one view-model (a dataclass) and hands it to :func:`render`, which answers
+with JSON under ``/api/``, with the page's partial to an htmx request, and with the whole
+page otherwise. The page and its JSON twin therefore always show the same figures.
+"""
+
+from __future__ import annotations
+
+import dataclasses
+from collections.abc import Iterable, Iterator
+from dataclasses import dataclass
+from datetime import date, datetime
+from pathlib import Path
+from typing import Annotated, Any
+from urllib.parse import quote, urlencode
+
+from fastapi import Depends, HTTPException, Request
+from fastapi.responses import HTMLResponse, JSONResponse, Response
+from jinja2 import Environment, FileSystemLoader, StrictUndefined
+from sqlalchemy.exc import SQLAlchemyError
+from sqlalchemy.orm import Session
+
+from app.config import Settings
+from app.store.summary import get_data_version
+
+__all__ = [
+    "STATIC_DIR",
+    "TEMPLATES_DIR",
+    "BadParameter",
+    "ErrorPage",
+    "Layout",
+    "SessionDep",
+    "SettingsDep",
+    "Urls",
+    "is_api_request",
+    "render",
+    "render_error",
+    "templates",
+    "to_json",
+    "urls_for",
+]
+
+PROJECT_DIR = Path(__file__).resolve().parents[2]
+TEMPLATES_DIR = PROJECT_DIR / "templates"
+STATIC_DIR = PROJECT_DIR / "static"
+
+
+# --- dependencies ------------------------------------------------------------------------
+
+
+def read_session(request: Request) -> Iterator[Session]:
+    """Yield a read session on the app's database for the length of one request."""
+    with request.app.state.database.read() as session:
+        yield session
+
+
+def current_settings(request: Request) -> Settings:
+    """Return the settings the app was created with."""
+    return request.app.state.settings
+
+
+SessionDep = Annotated[Session, Depends(read_session)]
+SettingsDep = Annotated[Settings, Depends(current_settings)]
+
+
+# --- URLs --------------------------------------------------------------------------------
+
+
+class Urls:
+    """Builds every path a page links to, so that templates never write one by hand."""
+
+    def __init__(self, root: str = ""):
+        self.root = root.rstrip("/")  # where the app is mounted, "" at the top of the site
+
+    def home(self) -> str:
+        return self._path("/")
+
+    def persons(self, *, q: str | None = None) -> str:
+        return self._path("/persons", q=q)
+
+    def person(self, key: str) -> str:
+        return self._path(f"/persons/{quote(key, safe=':')}")
+
+    def static(self, path: str) -> str:
+        return self._path(f"/static/{path.lstrip('/')}")
+
+    def api(self, path: str) -> str:
+        return self._path(f"/api/{path.lstrip('/')}")
+
+    def _path(self, path: str, **query: str | None) -> str:
+        given = {name: value for name, value in query.items() if value is not None}
+        return self.root + path + (f"?{urlencode(given)}" if given else "")
+
+
+def urls_for(request: Request) -> Urls:
+    """Return the URL builder for the site the request came to."""
+    return Urls(request.scope.get("root_path", ""))
+
+
+# --- templates ---------------------------------------------------------------------------
+
+
+def _count(number: int) -> str:
+    """Group digits by thousands with a thin space, which reads the same in every language."""
+    return f"{number:,}".replace(",", "\u2009")
+
+
+def _share(part: int, whole: int) -> int:
+    """Return ``part`` as a whole percentage of ``whole`` (0 when ``whole`` is 0)."""
+    return round(100 * part / whole) if whole else 0
+
+
+templates = Environment(
+    loader=FileSystemLoader(TEMPLATES_DIR),
+    autoescape=True,
+    undefined=StrictUndefined,  # a misspelt field fails loudly instead of printing nothing
+    trim_blocks=True,
+    lstrip_blocks=True,
+)
+templates.filters["count"] = _count
+templates.filters["share"] = _share
+
+
+@dataclass(frozen=True)
+class Layout:
+    """What the frame around every page shows."""
+
+    dataset_name: str
+    data_version: int | None  # None when the database could not be read (an error page)
+
+
+def page_layout(request: Request) -> Layout:
+    """Return the frame of a full page: the dataset's name and its data version."""
+    try:
+        with request.app.state.database.read() as session:
+            version = get_data_version(session=session)
+    except SQLAlchemyError:
+        version = None
+    return Layout(dataset_name=request.app.state.settings.dataset_name, data_version=version)
+
+
+# --- rendering ---------------------------------------------------------------------------
+
+
+def is_api_request(request: Request) -> bool:
+    """Return True for requests under ``/api/``, which are answered in JSON."""
+    path = request.url.path
+    root = request.scope.get("root_path", "")
+    if root and path.startswith(root):
+        path = path[len(root) :]
+    return path == "/api" or path.startswith("/api/")
+
+
+def wants_partial(request: Request) -> bool:
+    """Return True when htmx asks for a piece of a page rather than a whole page."""
+    headers = request.headers
+    return (
+        "HX-Request" in headers
+        and "HX-Boosted" not in headers  # a boosted link replaces the whole page
+        and "HX-History-Restore-Request" not in headers  # so does going back in history
+    )
+
+
+def to_json(view: Any) -> Any:
+    """Return a view-model as plain JSON data: dataclasses as objects, dates as ISO strings."""
+    if dataclasses.is_dataclass(view) and not isinstance(view, type):
+        view = dataclasses.asdict(view)
+    if isinstance(view, dict):
+        return {str(name): to_json(value) for name, value in view.items()}
+    if isinstance(view, (list, tuple, set, frozenset)):
+        return [to_json(value) for value in view]
+    if isinstance(view, (date, datetime)):
+        return view.isoformat()
+    return view
+
+
+def render(
+    request: Request,
+    view: Any,
+    *,
+    template: str,
+    partial: str | None = None,
+    status_code: int = 200,
+    headers: dict[str, str] | None = None,
+) -> Response:
+    """Return the view-model as JSON under ``/api/``, as its partial to htmx, else as the full page.
+
+    ``template`` is the full page, which includes ``partial``; both see the view-model as
+    ``page`` and the URL builder as ``urls``, and the full page also sees ``layout``.
+    """
+    if is_api_request(request):
+        return JSONResponse(to_json(view), status_code=status_code, headers=headers)
+    context = {"page": view, "urls": urls_for(request)}
+    if partial is not None and wants_partial(request):
+        html = templates.get_template(partial).render(context)
+    else:
+        html = templates.get_template(template).render(context, layout=page_layout(request))
+    # The same URL answers a whole page or a piece of one, so caches must tell them apart.
+    return HTMLResponse(html, status_code=status_code, headers={**(headers or {}), "Vary": "HX-Request"})
+
+
+# --- errors ------------------------------------------------------------------------------
+
+
+@dataclass(frozen=True)
+class ErrorPage:
+    """A request that could not be answered, and why."""
+
+    __pydantic_config__ = {"use_attribute_docstrings": True}
+
+    error: str
+    """What went wrong, in a few words ("not found", "bad parameter")."""
+    detail: str
+    """What exactly was not found or is wrong, and what would be accepted."""
+
+
+class BadParameter(HTTPException):
+    """A parameter whose value a page does not accept; answered with 400 and the accepted values."""
+
+    def __init__(self, name: str, value: object, accepted: str | Iterable[str]):
+        if not isinstance(accepted, str):
+            accepted = "one of " + ", ".join(str(item) for item in accepted)
+        self.parameter = name
+        self.accepted = accepted
+        super().__init__(status_code=400, detail=f"{name}={value!s} is not accepted; accepted: {accepted}")
+
+
+def render_error(
+    request: Request, status_code: int, error: str, detail: str, *, headers: dict[str, str] | None = None
+) -> Response:
+    """Return an error as JSON ``{"error", "detail"}`` under ``/api/``, else as a page in the site's style."""
+    return render(
+        request,
+        ErrorPage(error=error, detail=detail),
+        template="error.html",
+        partial="_error.html",
+        status_code=status_code,
+        headers=headers,
+    )
+

@@ -17,6 +17,7 @@ from starlette.exceptions import HTTPException as StarletteHTTPException
 
 from app.config import Settings
 from app.db import Database, DatabaseError, check_schema
+from app.network.slice import SliceError
 from app.views import home
 from app.views.common import STATIC_DIR, render_error
 
@@ -54,6 +55,7 @@ def create_app(settings: Settings) -> FastAPI:
 
     app.add_exception_handler(StarletteHTTPException, _http_error)
     app.add_exception_handler(RequestValidationError, _invalid_request)
+    app.add_exception_handler(SliceError, _bad_slice)
     return app
 
 
@@ -72,6 +74,11 @@ def _http_error(request: Request, exc: StarletteHTTPException) -> Response:
             detail = f"{request.url.path} does not answer {request.method} requests."
     error = "bad parameter" if exc.status_code == 400 else phrase.lower()
     return render_error(request, exc.status_code, error, str(detail), headers=exc.headers)
+
+
+def _bad_slice(request: Request, exc: SliceError) -> Response:
+    """A slice key found unknown only when resolved against the data (a kind, a collection)."""
+    return render_error(request, 400, "bad parameter", str(exc))
 
 
 def _invalid_request(request: Request, exc: RequestValidationError) -> Response:

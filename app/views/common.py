@@ -22,6 +22,7 @@ from sqlalchemy.exc import SQLAlchemyError
 from sqlalchemy.orm import Session
 
 from app.config import Settings
+from app.network.slice import Slice, SliceError
 from app.store.summary import get_data_version
 
 __all__ = [
@@ -31,6 +32,7 @@ __all__ = [
     "ErrorPage",
     "Layout",
     "SessionDep",
+    "SliceDep",
     "SettingsDep",
     "Urls",
     "is_api_request",
@@ -60,7 +62,16 @@ def current_settings(request: Request) -> Settings:
     return request.app.state.settings
 
 
+def slice_from_request(request: Request) -> Slice:
+    """Return the slice of the request's query string; a bad value is a 400 naming the parameter."""
+    try:
+        return Slice.from_query(request.query_params.multi_items())
+    except SliceError as error:
+        raise BadParameter(error.parameter, error.value, error.accepted) from error
+
+
 SessionDep = Annotated[Session, Depends(read_session)]
+SliceDep = Annotated[Slice, Depends(slice_from_request)]
 SettingsDep = Annotated[Settings, Depends(current_settings)]
 
 
@@ -68,7 +79,10 @@ SettingsDep = Annotated[Settings, Depends(current_settings)]
 
 
 class Urls:
-    """Builds every path a page links to, so that templates never write one by hand."""
+    """Builds every path a page links to, so that templates never write one by hand.
+
+    Paths to network views take the current slice, so the slice survives every link.
+    """
 
     def __init__(self, root: str = ""):
         self.root = root.rstrip("/")  # where the app is mounted, "" at the top of the site
@@ -76,11 +90,44 @@ class Urls:
     def home(self) -> str:
         return self._path("/")
 
-    def persons(self, *, q: str | None = None) -> str:
-        return self._path("/persons", q=q)
+    def persons(self, *, q: str | None = None, sort: str | None = None, page: int | None = None) -> str:
+        return self._path("/persons", q=q, sort=sort, page=None if page in (None, 1) else str(page))
 
-    def person(self, key: str) -> str:
-        return self._path(f"/persons/{quote(key, safe=':')}")
+    def person(self, key: str, slice: Slice | None = None, **extra: str | None) -> str:
+        return self._path(f"/persons/{_seg(key)}", slice, **extra)
+
+    def ego(self, key: str, slice: Slice | None = None, **extra: str | None) -> str:
+        return self._path(f"/persons/{_seg(key)}/ego", slice, **extra)
+
+    def ties(self, a: str, b: str, slice: Slice | None = None) -> str:
+        return self._path(f"/ties/{_seg(a)}/{_seg(b)}", slice)
+
+    def relation(self, relation_id: int) -> str:
+        return self._path(f"/relations/{int(relation_id)}")
+
+    def sources(self, *, q: str | None = None, page: int | None = None) -> str:
+        return self._path("/sources", q=q, page=None if page in (None, 1) else str(page))
+
+    def source(self, key: str) -> str:
+        return self._path(f"/sources/{_seg(key)}")
+
+    def repositories(self) -> str:
+        return self._path("/repositories")
+
+    def repository(self, key: str) -> str:
+        return self._path(f"/repositories/{_seg(key)}")
+
+    def collection(self, key: str) -> str:
+        return self._path(f"/collections/{_seg(key)}")
+
+    def place(self, key: str) -> str:
+        return self._path(f"/places/{_seg(key)}")
+
+    def groups(self) -> str:
+        return self._path("/groups")
+
+    def group(self, key: str) -> str:
+        return self._path(f"/groups/{_seg(key)}")
 
     def static(self, path: str) -> str:
         return self._path(f"/static/{path.lstrip('/')}")
@@ -88,9 +135,15 @@ class Urls:
     def api(self, path: str) -> str:
         return self._path(f"/api/{path.lstrip('/')}")
 
-    def _path(self, path: str, **query: str | None) -> str:
-        given = {name: value for name, value in query.items() if value is not None}
-        return self.root + path + (f"?{urlencode(given)}" if given else "")
+    def _path(self, path: str, slice: Slice | None = None, **query: str | None) -> str:
+        pairs = list(slice.to_query()) if slice is not None else []
+        pairs += [(name, str(value)) for name, value in query.items() if value is not None]
+        return self.root + path + (f"?{urlencode(pairs)}" if pairs else "")
+
+
+def _seg(key: str) -> str:
+    """Quote a key for use as one path segment (keys hold only letters, digits and ._:-)."""
+    return quote(str(key), safe=":")
 
 
 def urls_for(request: Request) -> Urls:

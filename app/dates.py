@@ -159,7 +159,12 @@ def parse_interval(
     calendar = check_calendar(calendar)
     if text is None or not str(text).strip():
         raise DateError(f"empty date: {text!r}")
-    text = str(text).strip()
+    return _interval(str(text).strip(), calendar, settings)
+
+
+@lru_cache(maxsize=16384)
+def _interval(text: str, calendar: str, settings: DateSettings) -> DateInterval:
+    """`parse_interval` for checked input; cached, since a dataset repeats its dates many times."""
     tree = _parse(text)
     readings = ("gregorian", "julian") if calendar == "unknown" else (calendar,)
     spans, errors = [], []

@@ -20,6 +20,8 @@ from sqlalchemy import Engine, create_engine, event, inspect
 from sqlalchemy.exc import OperationalError
 from sqlalchemy.orm import Session, sessionmaker
 
+from app.names import fold
+
 MIGRATIONS_DIR = Path(__file__).resolve().parent.parent / "migrations"
 
 
@@ -47,6 +49,8 @@ def make_engine(url: str, *, busy_timeout_ms: int = 10_000) -> Engine:
     @event.listens_for(engine, "connect")
     def _on_connect(dbapi_connection, _record):  # noqa: ANN001
         dbapi_connection.isolation_level = None  # we issue BEGIN ourselves
+        # fold(text): case- and accent-free text in SQL, the same folding as Python's search
+        dbapi_connection.create_function("fold", 1, _fold_or_none, deterministic=True)
         cursor = dbapi_connection.cursor()
         cursor.execute(f"PRAGMA busy_timeout = {int(busy_timeout_ms)}")
         cursor.execute("PRAGMA foreign_keys = ON")
@@ -102,6 +106,10 @@ class Database:
 
     def dispose(self) -> None:
         self.engine.dispose()
+
+
+def _fold_or_none(text: str | None) -> str | None:
+    return None if text is None else fold(str(text))
 
 
 # --- migrations -------------------------------------------------------------------------

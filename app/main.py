@@ -18,7 +18,12 @@ from starlette.exceptions import HTTPException as StarletteHTTPException
 from app.config import Settings
 from app.db import Database, DatabaseError, check_schema
 from app.network.slice import SliceError
+from app.views import ego as ego_views
 from app.views import home
+from app.views import persons as persons_views
+from app.views import places as places_views
+from app.views import sources as sources_views
+from app.views import ties as ties_views
 from app.views.common import STATIC_DIR, render_error
 
 __all__ = ["app_from_env", "create_app"]
@@ -52,6 +57,11 @@ def create_app(settings: Settings) -> FastAPI:
 
     app.mount("/static", StaticFiles(directory=STATIC_DIR), name="static")
     app.include_router(home.router)
+    app.include_router(persons_views.router)
+    app.include_router(sources_views.router)
+    app.include_router(places_views.router)
+    app.include_router(ties_views.router)
+    app.include_router(ego_views.router)
 
     app.add_exception_handler(StarletteHTTPException, _http_error)
     app.add_exception_handler(RequestValidationError, _invalid_request)

@@ -93,7 +93,7 @@ class Slice:
 
         Parameters that are not slice parameters are ignored; a bad value raises SliceError.
         """
-        items = query.items() if isinstance(query, Mapping) else _group(query)
+        items = query.items() if isinstance(query, Mapping) else _group(query).items()
         given: dict[str, Any] = {}
         for name, values in items:
             values = [v.strip() for v in values if v is not None and v.strip() != ""]
@@ -347,11 +347,17 @@ def relation_evidence(
         )
     if persons is not None:
         ids = list(set(persons))
+        # The relations are found first, through indexes: person_a is reached through the
+        # unique (kind, person_a, person_b) index, hence the condition on every kind. A plain
+        # OR on both ends would read every attestation of the dataset.
+        by_a = select(Relation.id).where(Relation.kind_id.in_(select(RelationKind.id)), Relation.person_a_id.in_(ids))
         if both_ends:
-            query = query.where(Relation.person_a_id.in_(ids), Relation.person_b_id.in_(ids))
+            query = query.where(Relation.id.in_(by_a.where(Relation.person_b_id.in_(ids))))
         else:
-            query = query.where(or_(Relation.person_a_id.in_(ids), Relation.person_b_id.in_(ids)))
-    rows = [EvidenceRow(*row) for row in session.execute(query)]
+            by_b = select(Relation.id).where(Relation.person_b_id.in_(ids))
+            query = query.where(Relation.id.in_(by_a.union_all(by_b)))
+    # Core execution: the ORM's row processing costs a third more on large neighbourhoods.
+    rows = [EvidenceRow(*row) for row in session.connection().execute(query)]
     if s.min_collections > 1:
         rows = _attested_in_enough_collections(rows, s.min_collections)
     return rows

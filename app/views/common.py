@@ -99,17 +99,30 @@ class Urls:
     def ego(self, key: str, slice: Slice | None = None, **extra: str | None) -> str:
         return self._path(f"/persons/{_seg(key)}/ego", slice, **extra)
 
+    def ego_svg(self, key: str, slice: Slice | None = None, **extra: str | None) -> str:
+        return self._path(f"/persons/{_seg(key)}/ego.svg", slice, **extra)
+
+    def ego_api(self, key: str, slice: Slice | None = None, **extra: str | None) -> str:
+        return self._path(f"/api/persons/{_seg(key)}/ego", slice, **extra)
+
     def ties(self, a: str, b: str, slice: Slice | None = None) -> str:
         return self._path(f"/ties/{_seg(a)}/{_seg(b)}", slice)
 
     def relation(self, relation_id: int) -> str:
         return self._path(f"/relations/{int(relation_id)}")
 
-    def sources(self, *, q: str | None = None, page: int | None = None) -> str:
-        return self._path("/sources", q=q, page=None if page in (None, 1) else str(page))
+    def sources(
+        self, *, q: str | None = None, kind: str | None = None, period_from: str | None = None,
+        period_to: str | None = None, place_from: str | None = None, place_to: str | None = None,
+        sort: str | None = None, page: int | None = None,
+    ) -> str:
+        """The index of sources; ``period_from`` and ``period_to`` are its ``from`` and ``to`` years."""
+        filters = {"q": q, "kind": kind, "from": period_from, "to": period_to, "place_from": place_from,
+                   "place_to": place_to, "sort": None if sort == "date" else sort}  # fmt: skip
+        return self._path("/sources", **{n: v for n, v in filters.items() if v}, page=None if page in (None, 1) else str(page))
 
-    def source(self, key: str) -> str:
-        return self._path(f"/sources/{_seg(key)}")
+    def source(self, key: str, slice: Slice | None = None) -> str:
+        return self._path(f"/sources/{_seg(key)}", slice)
 
     def repositories(self) -> str:
         return self._path("/repositories")
@@ -117,11 +130,13 @@ class Urls:
     def repository(self, key: str) -> str:
         return self._path(f"/repositories/{_seg(key)}")
 
-    def collection(self, key: str) -> str:
-        return self._path(f"/collections/{_seg(key)}")
+    def collection(self, key: str, *, sort: str | None = None, page: int | None = None) -> str:
+        return self._path(
+            f"/collections/{_seg(key)}", sort=None if sort == "date" else sort, page=None if page in (None, 1) else str(page)
+        )
 
-    def place(self, key: str) -> str:
-        return self._path(f"/places/{_seg(key)}")
+    def place(self, key: str, slice: Slice | None = None) -> str:
+        return self._path(f"/places/{_seg(key)}", slice)
 
     def groups(self) -> str:
         return self._path("/groups")
@@ -218,7 +233,8 @@ def wants_partial(request: Request) -> bool:
 def to_json(view: Any) -> Any:
     """Return a view-model as plain JSON data: dataclasses as objects, dates as ISO strings."""
     if dataclasses.is_dataclass(view) and not isinstance(view, type):
-        view = dataclasses.asdict(view)
+        # Field by field: dataclasses.asdict would deep-copy everything first, twice the work.
+        return {f.name: to_json(getattr(view, f.name)) for f in dataclasses.fields(view)}
     if isinstance(view, dict):
         return {str(name): to_json(value) for name, value in view.items()}
     if isinstance(view, (list, tuple, set, frozenset)):

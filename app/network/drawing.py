@@ -1,0 +1,294 @@
+"""The geometry of an ego network drawing: shapes, sizes, line styles and paths, ready for SVG.
+
+The markup itself is the template ``_ego_svg.html`` (autoescaped, so names with markup stay
+text). Here every number is decided: node size grows with degree, line width with the tie's
+weight; each relation kind has its own colour and dash pattern (colours chosen to stay apart
+for the common forms of colour blindness, dashes so that the kinds differ even in grey);
+directed kinds end in an arrow; parallel kinds between one pair bend apart; self-loops are
+small loops on the outside of their node.
+"""
+
+from __future__ import annotations
+
+import math
+from collections import defaultdict
+from dataclasses import dataclass
+
+from app.network.ego import EgoEdge, EgoNetwork
+from app.network.layout import HEIGHT, WIDTH, Placement, ego_layout
+from app.store.network_labels import KindLabel
+
+__all__ = ["DASHES", "PALETTE", "Drawing", "DrawnEdge", "DrawnNode", "KindStyle", "ego_drawing", "kind_styles", "short_label"]
+
+PALETTE = ("#1f5fa8", "#c4511f", "#0f8a6a", "#a3418f", "#9a6c00", "#3f93c9", "#6b4f2a", "#5f5f5f")
+DASHES = ("", "9 4", "2 3", "12 3 2 3", "5 5", "1 4 6 4")
+LABEL_LENGTH = 22
+PARALLEL_GAP = 22.0  # how far apart parallel kinds between one pair bend
+WIDTH_MEANS = {
+    "documents": "documents attesting the tie (a copy and its original count once)",
+    "attestations": "attestations of the tie",
+    "none": "the same for every tie (the slice weighs no tie above another)",
+}
+
+
+@dataclass(frozen=True)
+class KindStyle:
+    """How one relation kind is drawn."""
+
+    __pydantic_config__ = {"use_attribute_docstrings": True}
+
+    key: str
+    """The kind's key."""
+    label: str
+    """The kind's label."""
+    colour: str
+    """Line colour (#rrggbb)."""
+    dash: str
+    """SVG dash pattern ("" for a solid line)."""
+    directed: bool
+    """True when its lines end in an arrow in this drawing."""
+    marker: str
+    """Id of its arrowhead marker ("" when undirected)."""
+
+
+@dataclass(frozen=True)
+class DrawnNode:
+    """One person as drawn."""
+
+    __pydantic_config__ = {"use_attribute_docstrings": True}
+
+    key: str
+    """The person's key."""
+    name: str
+    """Full display name (hover text)."""
+    label: str
+    """The name as written beside the mark, shortened with … when long."""
+    x: float
+    """Centre, horizontal."""
+    y: float
+    """Centre, vertical."""
+    size: float
+    """Radius of the circle (half the side of the square)."""
+    shape: str
+    """circle (individual) or square (corporate body)."""
+    unidentified: bool
+    """Drawn hollow with a dashed outline."""
+    ego: bool
+    """The person at the centre."""
+    distance: int
+    """Steps from the ego."""
+    label_x: float
+    """Where the label starts, horizontal."""
+    label_y: float
+    """Where the label starts, vertical."""
+    anchor: str
+    """SVG text-anchor of the label: start, middle or end."""
+    rotate: float
+    """Rotation of the label in degrees about its start (0 on uncrowded rings)."""
+    font_size: float
+    """Size of the label's letters; smaller on crowded rings so that labels do not overlap."""
+    title: str
+    """Hover text: name and counts."""
+
+
+@dataclass(frozen=True)
+class DrawnEdge:
+    """One tie as drawn."""
+
+    __pydantic_config__ = {"use_attribute_docstrings": True}
+
+    source: str
+    """Key of the first person."""
+    target: str
+    """Key of the second person."""
+    kind: str
+    """Key of the relation kind."""
+    path: str
+    """SVG path data."""
+    colour: str
+    """Line colour."""
+    dash: str
+    """SVG dash pattern ("" for solid)."""
+    width: float
+    """Line width, growing with the tie's weight."""
+    marker: str
+    """Id of the arrowhead marker at its end ("" for none)."""
+    title: str
+    """Hover text: the pair, the kind and the counts."""
+
+
+@dataclass(frozen=True)
+class Drawing:
+    """Everything the SVG template needs, in the drawing's own coordinates."""
+
+    __pydantic_config__ = {"use_attribute_docstrings": True}
+
+    width: int
+    """Width of the view box."""
+    height: int
+    """Height of the view box."""
+    nodes: list[DrawnNode]
+    """Persons, the ego last so it is drawn on top."""
+    edges: list[DrawnEdge]
+    """Ties, drawn below the persons."""
+    kinds: list[KindStyle]
+    """The relation kinds present, in the order of the legend."""
+    width_means: str
+    """What the width of a line shows, in words."""
+
+
+def kind_styles(kinds: list[KindLabel], *, directed_view: bool = True) -> dict[str, KindStyle]:
+    """Return the style of every relation kind, by key.
+
+    A kind keeps its colour and dash in every drawing of the dataset: they follow the kind's
+    place among all kinds, not among those drawn.
+    """
+    styles = {}
+    for i, kind in enumerate(kinds):
+        directed = kind.directed and directed_view
+        styles[kind.key] = KindStyle(
+            key=kind.key, label=kind.label, colour=PALETTE[i % len(PALETTE)], dash=DASHES[i % len(DASHES)],
+            directed=directed, marker=f"ego-arrow-{i}" if directed else "",
+        )  # fmt: skip
+    return styles
+
+
+def short_label(name: str, length: int = LABEL_LENGTH) -> str:
+    """Return ``name`` cut to ``length`` characters with an ellipsis, for a label beside a mark."""
+    name = " ".join(name.split())
+    return name if len(name) <= length else name[: length - 1].rstrip() + "…"
+
+
+def ego_drawing(network: EgoNetwork, kinds: list[KindLabel], *, weight: str = "documents", direction: str = "recorded") -> Drawing:
+    """Return the drawing of ``network``: positions from ``ego_layout``, sizes, styles and paths."""
+    places = ego_layout(network)
+    styles = kind_styles(kinds, directed_view=direction == "recorded")
+    names = {node.key: node.name for node in network.nodes}
+    attested: dict[str, int] = defaultdict(int)
+    for edge in network.edges:
+        attested[edge.source] += edge.attestations
+        if edge.target != edge.source:
+            attested[edge.target] += edge.attestations
+
+    nodes = [_node(node, places[node.key], node.key == network.ego, attested[node.key], network) for node in network.nodes]
+    nodes.sort(key=lambda n: (n.ego, -n.distance, n.key))  # outer rings first, the ego on top
+    sizes = {n.key: n.size for n in nodes}
+
+    edges: list[DrawnEdge] = []
+    pairs: dict[tuple[str, str], list[EgoEdge]] = defaultdict(list)
+    for edge in network.edges:
+        pairs[tuple(sorted((edge.source, edge.target)))].append(edge)
+    order = {key: i for i, key in enumerate(styles)}
+    for (a, b), group in sorted(pairs.items()):
+        group.sort(key=lambda e: (order[e.kind], e.source))
+        for i, edge in enumerate(group):
+            style = styles[edge.kind]
+            if a == b:
+                path = _loop_path(places[a], sizes[a], i)
+            else:
+                bend = (i - (len(group) - 1) / 2) * PARALLEL_GAP
+                path = _tie_path(places[edge.source], places[edge.target], sizes[edge.source], sizes[edge.target],
+                                 bend if edge.source == a else -bend, arrow=style.directed)  # fmt: skip
+            edges.append(DrawnEdge(
+                source=edge.source, target=edge.target, kind=edge.kind, path=path, colour=style.colour, dash=style.dash,
+                width=_width(edge.weight, weight), marker=style.marker if edge.directed else "",
+                title=_edge_title(edge, names),
+            ))  # fmt: skip
+    present = {edge.kind for edge in network.edges}
+    return Drawing(
+        width=WIDTH, height=HEIGHT, nodes=nodes, edges=edges, kinds=[s for k, s in styles.items() if k in present],
+        width_means=WIDTH_MEANS[weight],
+    )
+
+
+# --- helpers -------------------------------------------------------------------------------
+
+
+def _size(degree: int, ego: bool) -> float:
+    size = min(5.0 + 2.4 * math.sqrt(degree), 20.0)
+    return round(max(size, 12.0) if ego else size, 1)
+
+
+def _width(weight_value: float, weight: str) -> float:
+    if weight == "none":
+        return 1.6
+    return round(min(1.2 + 1.5 * math.log2(max(weight_value, 1.0)), 7.0), 2)
+
+
+def _node(node, place: Placement, ego: bool, attestations: int, network: EgoNetwork) -> DrawnNode:  # noqa: ANN001
+    size = _size(node.degree, ego)
+    font_size = 18.0 if ego else 16.0
+    if place.crowded:  # letters no taller than the room along the ring for each label
+        radius = math.hypot(place.x - WIDTH / 2, place.y - HEIGHT / 2)
+        font_size = round(min(15.0, max(9.0, 0.8 * 2 * math.pi * radius / place.ring_size)), 1)
+    length = LABEL_LENGTH
+    if ego or place.angle is None:
+        label_x, label_y, anchor, rotate = place.x, place.y + size + 16, "middle", 0.0
+    else:
+        a = place.angle
+        gap = size + 5
+        lx, ly = place.x + gap * math.cos(a), place.y + gap * math.sin(a)
+        # A letter is about 0.56 of the font size wide: the label stops before the next ring.
+        length = max(6, min(LABEL_LENGTH, int((place.label_room - gap - 6) / (0.56 * font_size))))
+        if place.crowded:  # labels run along the radius
+            degrees = math.degrees(a)
+            left = math.cos(a) < 0
+            label_x, label_y, anchor, rotate = lx, ly, "end" if left else "start", degrees + 180 if left else degrees
+        else:
+            c = math.cos(a)
+            anchor = "start" if c > 0.3 else "end" if c < -0.3 else "middle"
+            push = 8 if anchor == "middle" else 0  # labels above or below a node need a little more room
+            label_x, label_y, rotate = lx, ly + push * math.copysign(1, math.sin(a)), 0.0
+    where = "the ego" if ego else f"{node.distance} step{'s' if node.distance > 1 else ''} from the ego"
+    marks = ", unidentified" if node.unidentified else ""
+    marks += ", corporate body" if node.kind == "corporate" else ""
+    title = (f"{node.name} ({where}{marks}): tied to {node.degree} person{'s' if node.degree != 1 else ''} here, "
+             f"{attestations} attestation{'s' if attestations != 1 else ''} on the ties drawn")  # fmt: skip
+    return DrawnNode(
+        key=node.key, name=node.name, label=short_label(node.name, length), x=place.x, y=place.y, size=size,
+        shape="square" if node.kind == "corporate" else "circle", unidentified=node.unidentified, ego=ego,
+        distance=node.distance, label_x=round(label_x, 1), label_y=round(label_y, 1), anchor=anchor,
+        rotate=round(rotate % 360, 2) if rotate else 0.0, font_size=font_size, title=title,
+    )  # fmt: skip
+
+
+def _edge_title(edge: EgoEdge, names: dict[str, str]) -> str:
+    arrow = "→" if edge.directed else "–"
+    return (f"{names[edge.source]} {arrow} {names[edge.target]}: {edge.kind_label}, "
+            f"{edge.documents} document{'s' if edge.documents != 1 else ''}, "
+            f"{edge.attestations} attestation{'s' if edge.attestations != 1 else ''}")  # fmt: skip
+
+
+def _tie_path(p: Placement, q: Placement, rp: float, rq: float, bend: float, *, arrow: bool) -> str:
+    """Return a line (or, with ``bend``, a gentle curve) from the edge of one mark to the other's."""
+    dx, dy = q.x - p.x, q.y - p.y
+    length = math.hypot(dx, dy) or 1.0
+    ux, uy = dx / length, dy / length
+    gap = 3.0 if arrow else 1.0
+    if not bend:
+        x1, y1 = p.x + ux * (rp + 1), p.y + uy * (rp + 1)
+        x2, y2 = q.x - ux * (rq + gap), q.y - uy * (rq + gap)
+        return f"M{x1:.1f},{y1:.1f} L{x2:.1f},{y2:.1f}"
+    # The control point lies off the midpoint, at right angles to the line.
+    mx, my = (p.x + q.x) / 2 - uy * bend * 2, (p.y + q.y) / 2 + ux * bend * 2
+    x1, y1 = _towards(p.x, p.y, mx, my, rp + 1)
+    x2, y2 = _towards(q.x, q.y, mx, my, rq + gap)
+    return f"M{x1:.1f},{y1:.1f} Q{mx:.1f},{my:.1f} {x2:.1f},{y2:.1f}"
+
+
+def _towards(x: float, y: float, tx: float, ty: float, distance: float) -> tuple[float, float]:
+    dx, dy = tx - x, ty - y
+    length = math.hypot(dx, dy) or 1.0
+    return x + dx / length * distance, y + dy / length * distance
+
+
+def _loop_path(place: Placement, size: float, index: int) -> str:
+    """Return a small loop on the outside of a mark (upwards for the ego); later loops are wider."""
+    a = place.angle if place.angle is not None else -math.pi / 2
+    reach = size + 26 + 12 * index
+    spread = 0.5
+    x1, y1 = place.x + size * math.cos(a - spread), place.y + size * math.sin(a - spread)
+    x2, y2 = place.x + (size + 3) * math.cos(a + spread), place.y + (size + 3) * math.sin(a + spread)
+    c1x, c1y = place.x + reach * math.cos(a - spread - 0.2), place.y + reach * math.sin(a - spread - 0.2)
+    c2x, c2y = place.x + reach * math.cos(a + spread + 0.2), place.y + reach * math.sin(a + spread + 0.2)
+    return f"M{x1:.1f},{y1:.1f} C{c1x:.1f},{c1y:.1f} {c2x:.1f},{c2y:.1f} {x2:.1f},{y2:.1f}"

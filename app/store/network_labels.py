@@ -1,0 +1,131 @@
+"""Names and keys that network views put on nodes, edges and slice controls.
+
+The graph code works on integer ids; these queries turn ids back into what a reader sees
+(person names and kinds, relation kind labels) and list what a slice can choose from
+(relation kinds as a tree, repositories with their collections).
+"""
+
+from __future__ import annotations
+
+from collections.abc import Iterable
+from dataclasses import dataclass
+
+from sqlalchemy import select
+from sqlalchemy.orm import Session, aliased
+
+from app.models import Collection, Person, PersonAlias, RelationKind, Repository
+
+__all__ = [
+    "ArchiveLabel",
+    "CollectionLabel",
+    "KindLabel",
+    "PersonLabel",
+    "get_person_label",
+    "list_archives",
+    "list_person_labels",
+    "list_relation_kinds",
+]
+
+
+@dataclass(frozen=True)
+class PersonLabel:
+    """What a drawing shows of one person."""
+
+    __pydantic_config__ = {"use_attribute_docstrings": True}
+
+    id: int
+    """Internal id (not stable across databases; links use the key)."""
+    key: str
+    """The person's key."""
+    name: str
+    """Display name."""
+    kind: str
+    """individual or corporate."""
+    unidentified: bool
+    """True for a person known only by a description ("the widow of the printer")."""
+
+
+@dataclass(frozen=True)
+class KindLabel:
+    """One relation kind, with its parent for the tree of kinds."""
+
+    __pydantic_config__ = {"use_attribute_docstrings": True}
+
+    id: int
+    """Internal id."""
+    key: str
+    """The kind's key, as used in `kind=` of the slice."""
+    label: str
+    """The kind's label."""
+    directed: bool
+    """True when the kind has a direction (sender and recipient, patron and client)."""
+    parent_key: str | None
+    """Key of the parent kind (kinship for sibling), or None."""
+
+
+@dataclass(frozen=True)
+class CollectionLabel:
+    """One collection of a repository."""
+
+    __pydantic_config__ = {"use_attribute_docstrings": True}
+
+    key: str
+    """The collection's key, as used in `keep_collection=` and `omit_collection=`."""
+    name: str
+    """The collection's name."""
+
+
+@dataclass(frozen=True)
+class ArchiveLabel:
+    """One repository with its collections."""
+
+    __pydantic_config__ = {"use_attribute_docstrings": True}
+
+    key: str
+    """The repository's key, as used in `keep_repository=` and `omit_repository=`."""
+    name: str
+    """The repository's name."""
+    collections: list[CollectionLabel]
+    """Its collections, by name."""
+
+
+def get_person_label(*, session: Session, key: str) -> PersonLabel | None:
+    """Return the person of ``key`` (an old key kept after a merge also finds it), or None."""
+    columns = (Person.id, Person.key, Person.name, Person.kind, Person.unidentified)
+    row = session.execute(select(*columns).where(Person.key == key)).first()
+    if row is None:
+        row = session.execute(select(*columns).join(PersonAlias, PersonAlias.person_id == Person.id).where(PersonAlias.key == key)).first()
+    return PersonLabel(*row) if row is not None else None
+
+
+def list_person_labels(*, session: Session, ids: Iterable[int]) -> dict[int, PersonLabel]:
+    """Return the persons of ``ids``, keyed by id."""
+    wanted = sorted(set(ids))
+    found: dict[int, PersonLabel] = {}
+    for start in range(0, len(wanted), 500):  # stays under SQLite's limit of bound parameters
+        query = select(Person.id, Person.key, Person.name, Person.kind, Person.unidentified).where(
+            Person.id.in_(wanted[start : start + 500])
+        )
+        found.update((row.id, PersonLabel(*row)) for row in session.execute(query))
+    return found
+
+
+def list_relation_kinds(*, session: Session) -> list[KindLabel]:
+    """Return every relation kind, in the order they were defined (parents before their sub-kinds)."""
+    parent = aliased(RelationKind)
+    query = (
+        select(RelationKind.id, RelationKind.key, RelationKind.label, RelationKind.directed, parent.key)
+        .outerjoin(parent, RelationKind.parent_id == parent.id)
+        .order_by(RelationKind.id)
+    )
+    return [KindLabel(*row) for row in session.execute(query)]
+
+
+def list_archives(*, session: Session) -> list[ArchiveLabel]:
+    """Return every repository (by name) with its collections (by name)."""
+    repositories = session.execute(select(Repository.id, Repository.key, Repository.name).order_by(Repository.name, Repository.key)).all()
+    collections: dict[int, list[CollectionLabel]] = {r.id: [] for r in repositories}
+    query = select(Collection.repository_id, Collection.key, Collection.name).order_by(Collection.name, Collection.key)
+    for repository_id, key, name in session.execute(query):
+        collections[repository_id].append(CollectionLabel(key=key, name=name))
+    return [ArchiveLabel(key=r.key, name=r.name, collections=collections[r.id]) for r in repositories]

@@ -1,0 +1,160 @@
+"""The ego network of one person: the drawing with the slice form, its JSON twin, and an SVG file.
+
+``/persons/{key}/ego`` shows the drawing beside a panel where a clicked tie shows its
+documents; ``/api/persons/{key}/ego`` gives the same nodes and edges as JSON;
+``/persons/{key}/ego.svg`` is the drawing as a file to put in a paper, with the slice written
+under it. The person page includes the same panel (``_ego_panel.html``, view-model EgoPanel).
+"""
+
+from __future__ import annotations
+
+import textwrap
+from dataclasses import dataclass
+
+from fastapi import APIRouter, HTTPException, Query, Request
+from fastapi.responses import HTMLResponse, Response
+from sqlalchemy.orm import Session
+
+from app.network.drawing import Drawing, ego_drawing
+from app.network.ego import EgoEdge, EgoNetwork, EgoNode, ego_network
+from app.network.slice import Slice, resolve_slice
+from app.store.network_labels import get_person_label, list_relation_kinds
+from app.store.summary import get_data_version
+from app.views.common import BadParameter, SessionDep, SliceDep, render, templates, urls_for
+from app.views.slicing import SliceControls, slice_controls
+
+__all__ = ["EgoPanel", "ego_panel", "router"]
+
+router = APIRouter(tags=["network"])
+RADII = ("1", "2")
+
+
+@dataclass(frozen=True)
+class EgoPanel:
+    """The ego network of one person in one slice, drawn and listed."""
+
+    __pydantic_config__ = {"use_attribute_docstrings": True}
+
+    key: str
+    """Key of the ego."""
+    name: str
+    """Display name of the ego."""
+    radius: int
+    """1: the ego's alters and the ties among them; 2: also the alters' alters."""
+    slice: Slice
+    """The slice the network is built from."""
+    summary: str
+    """The slice in one line of plain words."""
+    nodes: list[EgoNode]
+    """The ego first, then the alters by distance and key."""
+    edges: list[EgoEdge]
+    """Every tie among the persons drawn: one per relation kind and pair, with the relation ids."""
+    max_alters: int
+    """At most this many alters are drawn."""
+    left_out: dict[int, int]
+    """Alters found but not drawn because of that cap, by distance (keys "1" and "2" in JSON)."""
+    drawing: Drawing
+    """Positions, sizes, paths and the legend of relation kinds."""
+    notes: list[str]
+    """What the reader should know about this drawing (left-out alters, loops, empty slices)."""
+    controls: SliceControls
+    """The slice form."""
+    data_version: int
+    """Data version the network was read at (cite it with the drawing)."""
+
+
+def ego_panel(*, session: Session, person_key: str, slice: Slice, radius: int) -> EgoPanel:  # noqa: A002
+    """Return the ego network panel of the person ``person_key``; 404 when there is none."""
+    person = get_person_label(session=session, key=person_key)
+    if person is None:
+        raise HTTPException(status_code=404, detail=f"There is no person with the key {person_key}.")
+    resolved = resolve_slice(session, slice)
+    network = ego_network(session, resolved, person.id, radius=radius)
+    kinds = list_relation_kinds(session=session)
+    drawing = ego_drawing(network, kinds, weight=slice.weight, direction=slice.direction)
+    return EgoPanel(
+        key=person.key, name=person.name, radius=radius, slice=slice, summary=slice.describe(), nodes=network.nodes,
+        edges=network.edges, max_alters=network.max_alters, left_out=network.left_out, drawing=drawing,
+        notes=_notes(person.name, person.unidentified, slice, network),
+        controls=slice_controls(session=session, slice=slice), data_version=get_data_version(session=session),
+    )  # fmt: skip
+
+
+def _notes(name: str, unidentified: bool, slice: Slice, network: EgoNetwork) -> list[str]:  # noqa: A002
+    notes = []
+    if unidentified and slice.unidentified == "drop":
+        notes.append(f"{name} is unidentified, and this slice leaves unidentified persons out: no tie is drawn.")
+    elif not network.edges:
+        notes.append(f"No tie of {name} is in this slice.")
+    first, second = network.left_out.get(1, 0), network.left_out.get(2, 0)
+    if first:
+        notes.append(f"{first} more person{'s are' if first != 1 else ' is'} tied to {name} but not drawn: "
+                     f"at most {network.max_alters} alters are drawn, those with the strongest ties first.")  # fmt: skip
+        if network.radius == 2:
+            notes.append("Persons two steps away only through an alter not drawn are not looked for.")
+    if second:
+        notes.append(f"{second} more person{'s' if second != 1 else ''} two steps away "
+                     f"{'are' if second != 1 else 'is'} not drawn (the cap of {network.max_alters} alters).")  # fmt: skip
+    if slice.loops == "drop" and any(e.source == e.target for e in network.edges):
+        notes.append("Ties of a person with themself are drawn as small loops; measures leave them out "
+                     "unless the slice counts loops.")  # fmt: skip
+    return notes
+
+
+def _radius(value: str) -> int:
+    if value not in RADII:
+        raise BadParameter("radius", value, RADII)
+    return int(value)
+
+
+_RADIUS = Query("1", description="1: the ego's alters and the ties among them; 2: also the alters' alters.")
+_DESCRIPTION = (
+    "The ego network of one person in the slice given by the query string: the person, everyone "
+    "tied to them (and, with radius=2, everyone tied to those), and every tie among them, one per "
+    "relation kind and pair, each with its counts of attestations and documents and its relation "
+    "ids. Hubs are capped at 60 alters (150 at radius 2), the strongest ties first; `left_out` "
+    "says how many were not drawn. A bad radius or slice parameter is a 400, an unknown person a 404."
+)
+
+
+@router.get(
+    "/persons/{key}/ego",
+    response_class=HTMLResponse,
+    summary="Ego network of a person (page)",
+    description=_DESCRIPTION + " The page draws it, with the slice form and a panel that shows the "
+    "documents behind a clicked tie; an htmx request gets only the panel. JSON: `/api/persons/{key}/ego`.",
+)
+def ego_page(request: Request, key: str, session: SessionDep, slice: SliceDep, radius: str = _RADIUS) -> Response:  # noqa: A002
+    view = ego_panel(session=session, person_key=key, slice=slice, radius=_radius(radius))
+    return render(request, view, template="ego.html", partial="_ego_panel.html")
+
+
+@router.get(
+    "/api/persons/{key}/ego",
+    response_model=EgoPanel,
+    summary="Ego network of a person (JSON)",
+    description=_DESCRIPTION + " `drawing` holds the positions and paths of the picture. "
+    "The page: `/persons/{key}/ego`; the picture as a file: `/persons/{key}/ego.svg`.",
+)
+def ego_api(request: Request, key: str, session: SessionDep, slice: SliceDep, radius: str = _RADIUS) -> Response:  # noqa: A002
+    view = ego_panel(session=session, person_key=key, slice=slice, radius=_radius(radius))
+    return render(request, view, template="ego.html", partial="_ego_panel.html")
+
+
+@router.get(
+    "/persons/{key}/ego.svg",
+    response_class=Response,
+    summary="Ego network of a person (SVG file)",
+    description="The drawing of `/persons/{key}/ego` as a standalone SVG file to download, with its "
+    "legend and a caption giving the person, the radius, the slice and the data version.",
+    responses={200: {"content": {"image/svg+xml": {}}}},
+)
+def ego_svg(request: Request, key: str, session: SessionDep, slice: SliceDep, radius: str = _RADIUS) -> Response:  # noqa: A002
+    view = ego_panel(session=session, person_key=key, slice=slice, radius=_radius(radius))
+    caption = (f"Ego network of {view.name} ({view.key}), radius {view.radius}. Slice: {view.summary}. "
+               f"Attesta, data version {view.data_version}.")  # fmt: skip
+    svg = templates.get_template("ego_download.svg").render(
+        page=view, urls=urls_for(request), caption_lines=textwrap.wrap(caption, 120)
+    )
+    filename = f"ego-{view.key.replace(':', '_')}-radius{view.radius}.svg"
+    return Response(svg, media_type="image/svg+xml", headers={"Content-Disposition": f'attachment; filename="{filename}"'})

@@ -1,0 +1,168 @@
+"""The persons index with its search (``/persons``) and the page of one person (``/persons/{key}``)."""
+
+from __future__ import annotations
+
+from collections import Counter
+from dataclasses import dataclass
+from typing import Any
+
+from fastapi import APIRouter, HTTPException, Request
+from fastapi.responses import HTMLResponse, RedirectResponse, Response
+from sqlalchemy.orm import Session
+
+from app.network.slice import Slice, relation_evidence, resolve_slice
+from app.store.persons import (
+    PERSON_SORTS,
+    PersonDetail,
+    PersonList,
+    PersonRef,
+    get_person,
+    get_person_ref,
+    person_id,
+    search_persons,
+)
+from app.views.common import BadParameter, SessionDep, SliceDep, render
+
+__all__ = ["PersonPage", "PersonsPage", "parse_page", "person_or_redirect", "person_view", "persons_view", "router"]
+
+router = APIRouter(tags=["persons"])
+
+
+@dataclass(frozen=True)
+class PersonsPage:
+    """The index of persons: a search, a sort and one page of results."""
+
+    __pydantic_config__ = {"use_attribute_docstrings": True}
+
+    result: PersonList
+    """The persons found, this page of them, and how they are sorted."""
+    sorts: list[str]
+    """The sort orders offered."""
+
+
+@dataclass(frozen=True)
+class PersonPage:
+    """Everything recorded about one person, and the slice that links to ties keep."""
+
+    __pydantic_config__ = {"use_attribute_docstrings": True}
+
+    person: PersonDetail
+    """Names, dates, identifiers, memberships, cited facts and relations."""
+    slice: Slice
+    """The slice of the query string; links to ties pages keep it."""
+    slice_description: str
+    """The slice in plain words."""
+    sliced: bool
+    """True when the slice is not the default one (each relation then says how much of it the slice keeps)."""
+    ego: Any | None = None
+    """The ego network panel drawn around the person (filled in by the ego view; None when not drawn)."""
+
+
+def parse_page(value: str | None) -> int:
+    """Return the page number of ``?page=``; anything but a whole number of 1 or more is a 400."""
+    if value is None or value.strip() == "":
+        return 1
+    try:
+        number = int(value)
+    except ValueError:
+        number = 0
+    if number < 1:
+        raise BadParameter("page", value, "a whole number of 1 or more")
+    return number
+
+
+def persons_view(*, session: Session, q: str = "", sort: str | None = None, page: str | None = None) -> PersonsPage:
+    """Return the view-model of the index: best matches first when searching, else by name."""
+    sort = (sort or "").strip().lower() or ("match" if q.strip() else "name")
+    if sort not in PERSON_SORTS:
+        raise BadParameter("sort", sort, PERSON_SORTS)
+    number = parse_page(page)
+    result = search_persons(session=session, q=q, sort=sort, page=number)
+    if number > result.pages:
+        raise BadParameter("page", page, f"a whole number from 1 to {result.pages}")
+    return PersonsPage(result=result, sorts=list(PERSON_SORTS))
+
+
+def person_view(*, session: Session, key: str, slice_: Slice) -> PersonPage:
+    """Return the view-model of one person's page (the key must be current: see person_or_redirect)."""
+    resolved = resolve_slice(session, slice_)
+    sliced = slice_ != Slice()
+    in_slice = None
+    if sliced:
+        pid = person_id(session=session, key=key)
+        in_slice = Counter(row.relation_id for row in relation_evidence(session, resolved, persons=[pid]))
+    person = get_person(session=session, key=key, in_slice=in_slice)
+    if person is None:
+        raise HTTPException(status_code=404, detail=f"no person with key '{key}'")
+    return PersonPage(person=person, slice=slice_, slice_description=slice_.describe(), sliced=sliced)
+
+
+def person_or_redirect(request: Request, session: Session, key: str, parameter: str = "key") -> PersonRef | Response:
+    """Return person ``key``; a redirect when ``key`` is an old key of a merged person; 404 when unknown.
+
+    ``parameter`` names the path part that holds the key, so that the redirect goes to the same
+    route with the current key in its place and the query string unchanged.
+    """
+    ref = get_person_ref(session=session, key=key)
+    if ref is None:
+        raise HTTPException(status_code=404, detail=f"no person with key '{key}'")
+    if ref.key == key:
+        return ref
+    target = request.url_for(request.scope["route"].name, **{**request.path_params, parameter: ref.key})
+    query = request.url.query
+    return RedirectResponse(f"{target}?{query}" if query else str(target), status_code=308)
+
+
+# --- routes -----------------------------------------------------------------------------------
+
+_INDEX = (
+    "Every person, searched by any variant of their name: case and accents do not matter (`jose` "
+    "finds `José`), and near spellings are offered after the exact, prefix and substring matches, "
+    "marked `fuzzy`. When a variant other than the display name matched, it is named. Parameters: "
+    "`q` (the search), `sort` (`match`: best match first, the default when searching; `name`, the "
+    "default otherwise; `attestations` or `degree`: most first), `page` (50 persons per page). "
+    "`attestations` counts the attestations (not deleted) of a person's relations, memberships and "
+    "facts; `degree` the distinct other persons they have a relation with."
+)
+_PERSON = (
+    "Everything recorded about one person: names and variants, sort name, kind, birth and death as "
+    "written and as Gregorian days, authority identifiers with links to their records, memberships, "
+    "cited facts with their sources, and relations by kind with the other person, the direction and "
+    "roles, the number of attestations, the years they cover and the strongest certainty. Deleted "
+    "attestations never count. The slice parameters (`kind`, `from`, `to`, `certainty`, ...) are kept "
+    "in links to the ties pages, and each relation then says how many attestations the slice keeps. "
+    "An old key of a merged person redirects (308) to the current one; an unknown key is a 404."
+)
+
+
+@router.get("/persons", response_class=HTMLResponse, summary="Persons: index and search (page)",
+            description=_INDEX + " An htmx request (header `HX-Request`) gets only the result rows. "
+            "The same data in JSON: `/api/persons`.")  # fmt: skip
+def persons_page(request: Request, session: SessionDep, q: str = "", sort: str | None = None, page: str | None = None) -> Response:
+    view = persons_view(session=session, q=q, sort=sort, page=page)
+    return render(request, view, template="persons.html", partial="_person_rows.html")
+
+
+@router.get("/api/persons", response_model=PersonsPage, summary="Persons: index and search (JSON)",
+            description=_INDEX + " The page with the same data: `/persons`.")  # fmt: skip
+def persons_api(request: Request, session: SessionDep, q: str = "", sort: str | None = None, page: str | None = None) -> Response:
+    view = persons_view(session=session, q=q, sort=sort, page=page)
+    return render(request, view, template="persons.html", partial="_person_rows.html")
+
+
+@router.get("/persons/{key}", response_class=HTMLResponse, summary="One person (page)",
+            description=_PERSON + " The same data in JSON: `/api/persons/{key}`.")  # fmt: skip
+def person_page(request: Request, key: str, session: SessionDep, slice_: SliceDep) -> Response:
+    current = person_or_redirect(request, session, key)
+    if isinstance(current, Response):
+        return current
+    return render(request, person_view(session=session, key=current.key, slice_=slice_), template="person.html")
+
+
+@router.get("/api/persons/{key}", response_model=PersonPage, summary="One person (JSON)",
+            description=_PERSON + " The page with the same data: `/persons/{key}`.")  # fmt: skip
+def person_api(request: Request, key: str, session: SessionDep, slice_: SliceDep) -> Response:
+    current = person_or_redirect(request, session, key)
+    if isinstance(current, Response):
+        return current
+    return render(request, person_view(session=session, key=current.key, slice_=slice_), template="person.html")

@@ -460,6 +460,7 @@ def graph_from_evidence(session: Session, resolved: ResolvedSlice, rows: list[Ev
         G.add_edge(
             u, v, weight=tie_weight(attestations, documents, s.weight), attestations=attestations, documents=documents,
             attestation_ids=sorted(arc["attestation_ids"]), relation_ids=sorted(arc["relation_ids"]), kinds=sorted(arc["kinds"]),
+            document_ids=sorted(arc["documents"]),
         )
     for node in _node_set(session, resolved, rows):
         G.add_node(node)

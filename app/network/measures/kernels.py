@@ -1,0 +1,240 @@
+"""The igraph adapter: the heavy kernels, with igraph's conventions turned into networkx's.
+
+networkx is the reference implementation of every measure; igraph computes the costly ones
+(shortest-path counts, closeness, harmonic closeness, community detection, path lengths) in
+compiled code. Every function here takes a networkx graph and returns what the named networkx
+function returns on the same graph, so callers never see igraph's conventions:
+
+- betweenness: igraph's figure is raw; on an undirected graph it counts each pair of persons
+  once, as networkx's ``betweenness_centrality(normalized=False)`` does (which halves its
+  ordered-pair count); on a directed graph both count ordered pairs.
+- closeness: igraph's ``normalized=True`` is (r - 1) / (sum of distances) over the r persons in
+  reach and NaN for a person who reaches nobody; networkx's ``wf_improved=True`` multiplies it
+  by (r - 1)/(n - 1) (Wasserman and Faust) and gives 0. On a directed graph networkx uses
+  incoming distances, igraph's ``mode="in"``.
+- harmonic: the sum of 1/d from every other person, incoming on a directed graph, as networkx's
+  ``harmonic_centrality``.
+- weights are distances here (the caller passes whole units, see ``conventions``): igraph
+  compares path lengths with a relative tolerance of about 1e-10, networkx exactly. Two
+  different whole-unit lengths below 10^9 differ by at least 1e-9 of their size, so both see
+  the same ties (10^9 units is a path of about 1,400 ties of weight 1, far longer than any
+  shortest path between persons).
+
+igraph's random number generator is global: seeded runs hold a lock and put the default
+generator back afterwards.
+"""
+
+from __future__ import annotations
+
+import math
+import random
+import threading
+from collections.abc import Hashable, Iterable, Iterator
+from contextlib import contextmanager
+
+import igraph as ig
+import networkx as nx
+import numpy as np
+
+__all__ = [
+    "betweenness",
+    "betweenness_by_source",
+    "closeness",
+    "harmonic",
+    "leiden",
+    "louvain",
+    "path_lengths",
+    "to_igraph",
+]
+
+_RNG_LOCK = threading.Lock()
+
+
+def to_igraph(G: nx.Graph, *, attribute: str | None = None) -> tuple[ig.Graph, list[Hashable]]:
+    """Return G as an igraph Graph (vertex i is ``nodes[i]``) and the list of nodes.
+
+    Examples
+    --------
+    >>> g, nodes = to_igraph(nx.path_graph(["a", "b", "c"]))
+    >>> g.vcount(), g.ecount(), nodes
+    (3, 2, ['a', 'b', 'c'])
+    """
+    nodes = list(G)
+    index = {node: i for i, node in enumerate(nodes)}
+    g = ig.Graph(n=len(nodes), edges=[(index[u], index[v]) for u, v in G.edges()], directed=G.is_directed())
+    if attribute is not None:
+        g.es[attribute] = [float(data[attribute]) for _, _, data in G.edges(data=True)]
+    return g, nodes
+
+
+def betweenness(G: nx.Graph, *, distance: str | None = None) -> dict[Hashable, float]:
+    """Return raw betweenness, as networkx's ``betweenness_centrality(G, normalized=False)``.
+
+    References
+    ----------
+    Brandes, U. (2001). A faster algorithm for betweenness centrality. Journal of Mathematical
+    Sociology 25(2), 163-177.
+
+    Examples
+    --------
+    >>> betweenness(nx.path_graph(3))
+    {0: 0.0, 1: 1.0, 2: 0.0}
+    """
+    g, nodes = to_igraph(G, attribute=distance)
+    return dict(zip(nodes, g.betweenness(directed=G.is_directed(), weights=distance)))
+
+
+def betweenness_by_source(
+    G: nx.Graph, sources: Iterable[Hashable], *, distance: str | None = None
+) -> tuple[dict[Hashable, float], dict[Hashable, float]]:
+    """Return, per node, the sum and the sum of squares over ``sources`` of each source's share.
+
+    A source's share in a node is the part of the shortest paths from that source which pass
+    through the node, on networkx's raw scale (halved on an undirected graph, where every pair
+    is met from both ends), so that the sum over all sources is ``betweenness(G)``.
+
+    Examples
+    --------
+    >>> total, squares = betweenness_by_source(nx.path_graph(3), [0, 2])
+    >>> total[1], squares[1]
+    (1.0, 0.5)
+    """
+    g, nodes = to_igraph(G, attribute=distance)
+    index = {node: i for i, node in enumerate(nodes)}
+    total = np.zeros(len(nodes))
+    squares = np.zeros(len(nodes))
+    for source in sources:
+        share = np.asarray(g.betweenness(directed=G.is_directed(), weights=distance, sources=[index[source]]))
+        total += share
+        squares += share * share
+    return dict(zip(nodes, total.tolist())), dict(zip(nodes, squares.tolist()))
+
+
+def closeness(G: nx.Graph, *, distance: str | None = None) -> tuple[dict[Hashable, float], dict[Hashable, float]]:
+    """Return Wasserman-Faust closeness and closeness within reach, as networkx computes them.
+
+    The first is networkx's ``closeness_centrality(G, distance=distance, wf_improved=True)``,
+    the second the same with ``wf_improved=False``: (r - 1)/(sum of distances) over the r
+    persons in reach (r counts the person). Both are 0 for a person who reaches nobody.
+
+    References
+    ----------
+    Wasserman, S., & Faust, K. (1994). Social Network Analysis: Methods and Applications.
+    Cambridge University Press.
+
+    Examples
+    --------
+    >>> G = nx.path_graph(3)
+    >>> G.add_node(3)
+    >>> improved, within = closeness(G)
+    >>> improved[1], within[1], improved[3]
+    (0.6666666666666666, 1.0, 0.0)
+    """
+    n = G.number_of_nodes()
+    g, nodes = to_igraph(G, attribute=distance)
+    mode = "in" if G.is_directed() else "all"
+    within = [_zero_if_nan(c) for c in g.closeness(mode=mode, weights=distance, normalized=True)]
+    if G.is_directed():
+        inverse = g.closeness(mode=mode, weights=distance, normalized=False)
+        reached = [0 if w == 0 else round(w / i) for w, i in zip(within, inverse)]
+    else:
+        membership = g.connected_components().membership
+        sizes = np.bincount(membership) if membership else np.zeros(0, dtype=int)
+        reached = [int(sizes[m]) - 1 for m in membership]
+    improved = [w * r / (n - 1) if n > 1 else 0.0 for w, r in zip(within, reached)]
+    return dict(zip(nodes, improved)), dict(zip(nodes, within))
+
+
+def harmonic(G: nx.Graph, *, distance: str | None = None) -> dict[Hashable, float]:
+    """Return the sum of 1/d from every other person, as networkx's ``harmonic_centrality``.
+
+    References
+    ----------
+    Marchiori, M., & Latora, V. (2000). Harmony in the small-world. Physica A 285, 539-546.
+
+    Examples
+    --------
+    >>> harmonic(nx.path_graph(3))
+    {0: 1.5, 1: 2.0, 2: 1.5}
+    """
+    g, nodes = to_igraph(G, attribute=distance)
+    mode = "in" if G.is_directed() else "all"
+    return dict(zip(nodes, (_zero_if_nan(h) for h in g.harmonic_centrality(mode=mode, weights=distance, normalized=False))))
+
+
+def louvain(G: nx.Graph, *, weight: str | None = None, seed: int = 0) -> list[list[Hashable]]:
+    """Return the communities found by igraph's multilevel (Louvain) method on an undirected G.
+
+    References
+    ----------
+    Blondel, V. D., Guillaume, J.-L., Lambiotte, R., & Lefebvre, E. (2008). Fast unfolding of
+    communities in large networks. J. Stat. Mech. P10008.
+
+    Examples
+    --------
+    >>> sorted(map(sorted, louvain(nx.disjoint_union(nx.complete_graph(3), nx.complete_graph(3)))))
+    [[0, 1, 2], [3, 4, 5]]
+    """
+    g, nodes = to_igraph(G, attribute=weight)
+    with _seeded(seed):
+        membership = g.community_multilevel(weights=weight).membership
+    return _groups(nodes, membership)
+
+
+def leiden(G: nx.Graph, *, weight: str | None = None, seed: int = 0) -> list[list[Hashable]]:
+    """Return the communities found by igraph's Leiden method (modularity) on an undirected G.
+
+    Iterates until a pass improves nothing.
+
+    References
+    ----------
+    Traag, V. A., Waltman, L., & van Eck, N. J. (2019). From Louvain to Leiden: guaranteeing
+    well-connected communities. Scientific Reports 9, 5233.
+
+    Examples
+    --------
+    >>> sorted(map(sorted, leiden(nx.disjoint_union(nx.complete_graph(3), nx.complete_graph(3)))))
+    [[0, 1, 2], [3, 4, 5]]
+    """
+    g, nodes = to_igraph(G, attribute=weight)
+    with _seeded(seed):
+        membership = g.community_leiden(objective_function="modularity", weights=weight, n_iterations=-1).membership
+    return _groups(nodes, membership)
+
+
+def path_lengths(G: nx.Graph) -> tuple[int, float | None]:
+    """Return the diameter and the average shortest path length (in ties) of a connected G.
+
+    As networkx's ``diameter`` and ``average_shortest_path_length``, on the undirected view;
+    a single person has diameter 0 and no average.
+
+    Examples
+    --------
+    >>> path_lengths(nx.path_graph(4))
+    (3, 1.6666666666666667)
+    """
+    g, _ = to_igraph(G)
+    if g.vcount() < 2:
+        return 0, None
+    return int(g.diameter(directed=False)), float(g.average_path_length(directed=False))
+
+
+@contextmanager
+def _seeded(seed: int) -> Iterator[None]:
+    with _RNG_LOCK:
+        ig.set_random_number_generator(random.Random(seed))
+        try:
+            yield
+        finally:
+            ig.set_random_number_generator(random)
+
+
+def _groups(nodes: list[Hashable], membership: list[int]) -> list[list[Hashable]]:
+    groups: dict[int, list[Hashable]] = {}
+    for node, label in zip(nodes, membership):
+        groups.setdefault(label, []).append(node)
+    return list(groups.values())
+
+
+def _zero_if_nan(value: float) -> float:
+    return 0.0 if math.isnan(value) else float(value)

@@ -1,0 +1,187 @@
+"""The slice at a glance: size, density, clustering, components, path lengths, degrees, warnings.
+
+The warnings say in plain words when the figures should not be trusted far: a slice with few
+ties, or one whose evidence comes mostly from a single collection (the network may then show
+what one archive kept rather than what happened).
+"""
+
+from __future__ import annotations
+
+from collections import Counter
+from collections.abc import Hashable, Mapping
+from dataclasses import dataclass
+
+import networkx as nx
+
+from app.network.measures import kernels
+from app.network.measures.conventions import induced, population_sentence, working_graph
+from app.network.measures.results import node_key
+
+__all__ = [
+    "FEW_PERSONS",
+    "FEW_TIES",
+    "ONE_COLLECTION_SHARE",
+    "NetworkSummary",
+    "collection_warning",
+    "small_slice_warning",
+    "summarize",
+]
+
+FEW_PERSONS = 30
+"""Below this many persons a slice is called small."""
+FEW_TIES = 50
+"""Below this many ties a slice is called small."""
+ONE_COLLECTION_SHARE = 0.5
+"""Above this share of the attestations from one collection, the summary warns."""
+
+
+@dataclass(frozen=True)
+class NetworkSummary:
+    """The figures that describe a whole slice."""
+
+    persons: int
+    """n, the number of persons (nodes)."""
+    ties: int
+    """Ties between two different persons (arcs on a directed slice)."""
+    loops: int
+    """Self-loops, counted apart and left out of every other figure."""
+    attestations: int | None
+    """Distinct attestations behind the ties, loops included (None if the graph does not say)."""
+    directed: bool
+    """True for a directed slice (direction=recorded)."""
+    density: float | None
+    """Ties ÷ possible ties: n(n − 1)/2 undirected, n(n − 1) directed (None below two persons)."""
+    reciprocity: float | None
+    """Share of arcs whose opposite arc exists too (directed slices only)."""
+    transitivity: float
+    """Share of connected triples that close into triangles (undirected view)."""
+    average_clustering: float
+    """Mean local clustering over all n persons, 0 for those with fewer than two ties (undirected view)."""
+    components: int
+    """Number of components (weakly connected on a directed slice), isolates included."""
+    largest_component: int
+    """Persons in the largest component."""
+    largest_share: float | None
+    """Share of the persons in the largest component."""
+    diameter: int | None
+    """Longest shortest path, in ties, within the largest component (None for an empty graph)."""
+    average_path_length: float | None
+    """Mean shortest path length, in ties, within the largest component (None below two persons)."""
+    degree_distribution: dict[int, int]
+    """Number of persons per degree (undirected view), degrees ascending."""
+    in_degree_distribution: dict[int, int] | None
+    """Number of persons per in-degree (directed slices only)."""
+    out_degree_distribution: dict[int, int] | None
+    """Number of persons per out-degree (directed slices only)."""
+    warnings: list[str]
+    """Plain sentences on what limits the figures."""
+    conventions: str
+    """Plain sentences: node set and n, loops, views, the component used for path lengths."""
+
+
+def summarize(
+    G: nx.Graph, *, node_set: str | None = None, collection_counts: Mapping[str, int] | None = None
+) -> NetworkSummary:
+    """Return the summary of a slice's graph, with warnings.
+
+    ``collection_counts`` gives the number of attestations per collection in the slice (by
+    name); when one collection holds more than half of them, a warning says so.
+
+    References
+    ----------
+    Wasserman, S., & Faust, K. (1994). Social Network Analysis: Methods and Applications.
+    Cambridge University Press (density, reciprocity, components).
+    Watts, D. J., & Strogatz, S. H. (1998). Collective dynamics of 'small-world' networks.
+    Nature 393, 440-442 (clustering).
+
+    Examples
+    --------
+    >>> summary = summarize(nx.path_graph(4))
+    >>> summary.ties, summary.density, summary.diameter, summary.degree_distribution
+    (3, 0.5, 3, {1: 2, 2: 2})
+    """
+    n = G.number_of_nodes()
+    directed = G.is_directed()
+    plain = working_graph(G, loops="drop")
+    undirected = working_graph(G, loops="drop", undirected=True)
+    ties = plain.number_of_edges()
+    possible = n * (n - 1) if directed else n * (n - 1) / 2
+    parts = sorted((sorted(c, key=node_key) for c in nx.connected_components(undirected)), key=lambda c: (-len(c), node_key(c[0])))
+    largest = parts[0] if parts else []
+    diameter, average = kernels.path_lengths(induced(undirected, set(largest))) if largest else (None, None)
+    warnings = [w for w in (small_slice_warning(n, ties), collection_warning(collection_counts or {})) if w]
+    path_part = (f"Diameter and average path length are those of the largest component ({len(largest)} of {n} persons"
+                 + (", the first of several of that size" if len(parts) > 1 and len(parts[1]) == len(largest) else "")
+                 + "), counted in ties.") if largest else ""
+    conventions = " ".join(s for s in [
+        population_sentence(n, node_set),
+        "Self-loops are counted apart and left out of every other figure.",
+        "Transitivity, clustering, components, path lengths and degrees use the undirected view"
+        + (" (two opposite arcs are one tie)." if directed else "."),
+        path_part,
+    ] if s)
+    return NetworkSummary(
+        persons=n, ties=ties, loops=nx.number_of_selfloops(G), attestations=_attestations(G), directed=directed,
+        density=ties / possible if n > 1 else None,
+        reciprocity=nx.overall_reciprocity(plain) if directed and ties else None,
+        transitivity=nx.transitivity(undirected), average_clustering=nx.average_clustering(undirected) if n else 0.0,
+        components=len(parts), largest_component=len(largest), largest_share=len(largest) / n if n else None,
+        diameter=diameter, average_path_length=average,
+        degree_distribution=_distribution(d for _, d in undirected.degree()),
+        in_degree_distribution=_distribution(d for _, d in plain.in_degree()) if directed else None,
+        out_degree_distribution=_distribution(d for _, d in plain.out_degree()) if directed else None,
+        warnings=warnings, conventions=conventions,
+    )
+
+
+def small_slice_warning(persons: int, ties: int) -> str | None:
+    """Return a warning when the slice has fewer than 30 persons or 50 ties, else None.
+
+    Examples
+    --------
+    >>> small_slice_warning(12, 15)
+    'Only 12 persons and 15 ties: measures on so few ties say little.'
+    >>> small_slice_warning(300, 900) is None
+    True
+    """
+    if persons >= FEW_PERSONS and ties >= FEW_TIES:
+        return None
+    persons_text = f"{persons} {'person' if persons == 1 else 'persons'}"
+    return f"Only {persons_text} and {ties} {'tie' if ties == 1 else 'ties'}: measures on so few ties say little."
+
+
+def collection_warning(counts: Mapping[str, int], share: float = ONE_COLLECTION_SHARE) -> str | None:
+    """Return a warning when one collection holds more than ``share`` of the attestations, else None.
+
+    ``counts`` maps each collection (its name) to its number of attestations in the slice.
+
+    Examples
+    --------
+    >>> print(collection_warning({"Vell family papers": 70, "Town register": 30}))  # doctest: +NORMALIZE_WHITESPACE
+    70% of the attestations (70 of 100) come from one collection, Vell family papers: the network may
+    show what that collection kept rather than all that happened.
+    >>> collection_warning({"Vell family papers": 50, "Town register": 50}) is None
+    True
+    """
+    total = sum(counts.values())
+    if not total:
+        return None
+    name, top = max(counts.items(), key=lambda item: (item[1], item[0]))
+    if top / total <= share:
+        return None
+    return (f"{top / total:.0%} of the attestations ({top} of {total}) come from one collection, {name}: "
+            "the network may show what that collection kept rather than all that happened.")
+
+
+def _attestations(G: nx.Graph) -> int | None:
+    ids: set[Hashable] = set()
+    carried = False
+    for _, _, data in G.edges(data=True):
+        if "attestation_ids" in data:
+            carried = True
+            ids.update(data["attestation_ids"])
+    return len(ids) if carried else None
+
+
+def _distribution(degrees) -> dict[int, int]:  # noqa: ANN001 - any iterable of ints
+    return dict(sorted(Counter(int(d) for d in degrees).items()))

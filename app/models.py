@@ -299,6 +299,7 @@ class Relation(Base):
             name="fk_relation_kind_directed",
         ),
         CheckConstraint("kind_directed OR person_a_id <= person_b_id", name="undirected_pair_sorted"),
+        Index("ix_relation_person_a_id", "person_a_id"),
         Index("ix_relation_person_b_id", "person_b_id"),
     )
 

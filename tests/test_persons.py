@@ -352,8 +352,11 @@ def test_the_slice_is_kept_in_links_and_counted_per_relation(client: TestClient)
 
 def test_person_page_and_json_show_the_same_figures(client: TestClient):
     body = client.get("/api/persons/p-jost").json()
-    assert body["ego"] is None
     page = soup_of(client.get("/persons/p-jost"))
+    # the ego network drawn on the page is the one in the JSON
+    assert body["ego"]["key"] == "p-jost"
+    drawn = {a["href"].split("?")[0] for a in page.select("#ego-panel svg a[href^='/persons/']")}
+    assert drawn == {f"/persons/{node['key']}" for node in body["ego"]["nodes"]}
     from_json = {(rel["relation_id"], rel["attestations"], rel["span"]) for g in body["person"]["relations"] for rel in g["relations"]}
     from_page = {
         (int(tr["data-relation"]), int(tr.select_one("td.attestations")["data-value"]), tr.select_one("td.years").get_text(strip=True))

@@ -22,6 +22,7 @@ from app.store.persons import (
     search_persons,
 )
 from app.views.common import BadParameter, SessionDep, SliceDep, render
+from app.views.ego import ego_panel
 
 __all__ = ["PersonPage", "PersonsPage", "parse_page", "person_or_redirect", "person_view", "persons_view", "router"]
 
@@ -94,7 +95,8 @@ def person_view(*, session: Session, key: str, slice_: Slice) -> PersonPage:
     person = get_person(session=session, key=key, in_slice=in_slice)
     if person is None:
         raise HTTPException(status_code=404, detail=f"no person with key '{key}'")
-    return PersonPage(person=person, slice=slice_, slice_description=slice_.describe(), sliced=sliced)
+    ego = ego_panel(session=session, person_key=key, slice=slice_, radius=1)
+    return PersonPage(person=person, slice=slice_, slice_description=slice_.describe(), sliced=sliced, ego=ego)
 
 
 def person_or_redirect(request: Request, session: Session, key: str, parameter: str = "key") -> PersonRef | Response:
@@ -131,6 +133,7 @@ _PERSON = (
     "roles, the number of attestations, the years they cover and the strongest certainty. Deleted "
     "attestations never count. The slice parameters (`kind`, `from`, `to`, `certainty`, ...) are kept "
     "in links to the ties pages, and each relation then says how many attestations the slice keeps. "
+    "The ego network of the slice (radius 1) comes with it, as on `/persons/{key}/ego`. "
     "An old key of a merged person redirects (308) to the current one; an unknown key is a 404."
 )
 

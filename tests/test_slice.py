@@ -354,3 +354,25 @@ def test_unknown_database_keys_in_the_form_are_400(client: TestClient):
     response = client.get(f"/persons/{key('E')}/ego?keep_collection=col-nowhere")
     assert response.status_code == 400
     assert "keep_collection=col-nowhere" in BeautifulSoup(response.text, "html.parser").select_one(".error-detail").get_text()
+
+
+def test_reciprocity_is_judged_kind_by_kind(database, tmp_path):
+    """A one-way patronage between two correspondents who write both ways is not reciprocated."""
+    from app.exchange.workbook import import_workbook
+    from app.models import Attestation, Person
+    from sqlalchemy import select
+    from tests.workbooks import small_world, write_workbook
+
+    world = small_world()
+    world["relations.csv"].append(
+        {"key": "r-patron", "person": "p-anna", "other": "p-jost", "kind": "patronage", "source": "s-1"}
+    )
+    import_workbook(database, write_workbook(tmp_path / "wb", world), size_limit=10**9)
+    with database.read() as session:
+        ids = dict(session.execute(select(Person.key, Person.id)).all())
+        patron = session.scalar(select(Attestation.id).where(Attestation.key == "r-patron"))
+        G = build_graph(session, Slice(direction="reciprocal"))
+    anna, jost, council = ids["p-anna"], ids["p-jost"], ids["p-council"]
+    assert set(G.edges) == {(anna, jost)}  # letters both ways, and the siblings
+    assert patron not in G.edges[anna, jost]["attestation_ids"]
+    assert council in G and G.degree(council) == 0  # the Council's one-way letter leaves it an isolate

@@ -100,7 +100,10 @@ class Slice:
             if not values:
                 continue
             if name in REPEATABLE:
-                given[name] = tuple(dict.fromkeys(v for value in values for v in value.split(",") if v.strip()))
+                # One canonical order, so the same slice always has the same URL and cache key.
+                chosen = {v.strip() for value in values for v in value.split(",") if v.strip()}
+                order = EVIDENCE_KINDS.index if name == "evidence" and chosen <= set(EVIDENCE_KINDS) else None
+                given[name] = tuple(sorted(chosen, key=order))
             elif name in ("from", "to"):
                 given["period_" + name] = values[-1]
             elif name in CHOICES:
@@ -416,7 +419,7 @@ def build_graph(session: Session, slice_: Slice) -> nx.Graph | nx.DiGraph:
 
     ``direction=recorded`` gives a DiGraph in which an undirected kind counts both ways;
     ``undirected`` and ``reciprocal`` give a Graph (``reciprocal`` keeps a directed tie only when
-    the other direction is attested too; undirected kinds are reciprocal by nature). Several kinds
+    the other direction is attested by the same kind; undirected kinds are reciprocal by nature). Several kinds
     between one pair are one edge. Self-loops stay in the graph unless ``loops=drop``.
     """
     resolved = resolve_slice(session, slice_)
@@ -439,20 +442,18 @@ def graph_from_evidence(session: Session, resolved: ResolvedSlice, rows: list[Ev
         arc["relation_ids"].add(row.relation_id)
         arc["kinds"].add(row.kind_id)
 
-    for row in rows:
+    tied = rows
+    if s.direction == "reciprocal":
+        # Judged kind by kind: a letter tie is reciprocated by letters the other way, not by kinship.
+        # Persons whose only ties are one-way stay in the node set (their evidence is in the slice).
+        directed = {(r.kind_id, r.person_a, r.person_b) for r in rows if r.directed}
+        tied = [r for r in rows if not r.directed or r.person_a == r.person_b or (r.kind_id, r.person_b, r.person_a) in directed]
+    for row in tied:
         if row.person_a == row.person_b and s.loops == "drop":
             continue
         add(row.person_a, row.person_b, row)
         if directed_view and not row.directed and row.person_a != row.person_b:
             add(row.person_b, row.person_a, row)
-
-    if s.direction == "reciprocal":
-        directed_pairs = {(r.person_a, r.person_b) for r in rows if r.directed}
-        undirected_pairs = {tuple(sorted((r.person_a, r.person_b))) for r in rows if not r.directed}
-        arcs = {
-            (u, v): arc for (u, v), arc in arcs.items()
-            if (u, v) in undirected_pairs or u == v or ((u, v) in directed_pairs and (v, u) in directed_pairs)
-        }
 
     for (u, v), arc in arcs.items():
         attestations = len(arc["attestation_ids"])
@@ -462,17 +463,17 @@ def graph_from_evidence(session: Session, resolved: ResolvedSlice, rows: list[Ev
             attestation_ids=sorted(arc["attestation_ids"]), relation_ids=sorted(arc["relation_ids"]), kinds=sorted(arc["kinds"]),
             document_ids=sorted(arc["documents"]),
         )
-    for node in _node_set(session, resolved, rows):
+    for node in _node_set(session, resolved, rows, tied):
         G.add_node(node)
     return G
 
 
-def _node_set(session: Session, resolved: ResolvedSlice, rows: list[EvidenceRow]) -> set[int]:
-    """Return the persons of the node set: with a tie, with any evidence in the slice, or all."""
+def _node_set(session: Session, resolved: ResolvedSlice, rows: list[EvidenceRow], tied: list[EvidenceRow]) -> set[int]:
+    """Return the persons of the node set: with a tie drawn, with any evidence in the slice, or all."""
     s = resolved.slice
-    with_ties = {p for r in rows for p in (r.person_a, r.person_b)}
     if s.nodes == "ties":
-        return with_ties
+        return {p for r in tied for p in (r.person_a, r.person_b)}
+    with_ties = {p for r in rows for p in (r.person_a, r.person_b)}
     if s.nodes == "all":
         query = select(Person.id)
         if s.unidentified == "drop":

@@ -14,7 +14,7 @@ from dataclasses import dataclass, field
 
 from sqlalchemy.orm import Session
 
-from app.network.slice import EvidenceRow, ResolvedSlice, relation_evidence, tie_weight
+from app.network.slice import EvidenceRow, RelationTotal, ResolvedSlice, relation_evidence, relation_totals, tie_weight
 from app.store.network_labels import KindLabel, PersonLabel, list_person_labels, list_relation_kinds
 
 __all__ = ["DEFAULT_MAX_ALTERS", "EgoEdge", "EgoNetwork", "EgoNode", "ego_network"]
@@ -118,35 +118,28 @@ def ego_network(
         raise ValueError(f"radius must be 1 or 2, not {radius}")
     cap = DEFAULT_MAX_ALTERS[radius] if max_alters is None else max_alters
     direction, weight = resolved.slice.direction, resolved.slice.weight
-    rows: dict[int, EvidenceRow] = {}
+    def totals(persons: Iterable[int]) -> dict[tuple, list[float]]:
+        persons = sorted(persons)
+        found: list[RelationTotal] = []
+        for start in range(0, len(persons), 400):  # chunks stay under SQLite's limit of bound parameters
+            found += relation_totals(session, resolved, persons=persons[start : start + 400])
+        return _strengths(found, direction, weight)
 
-    def fetch(persons: Iterable[int], both_ends: bool = False) -> None:
-        persons = list(persons)
-        # Chunks stay under SQLite's limit of bound parameters; pairs need all persons in one query.
-        size = len(persons) if both_ends else 400
-        for start in range(0, len(persons), max(size, 1)):
-            chunk = persons[start : start + size]
-            rows.update((r.attestation_id, r) for r in relation_evidence(session, resolved, persons=chunk, both_ends=both_ends))
-
-    fetch([ego_id])
-    ties = _ties(rows.values(), direction)
-    found_first = _neighbours(ties, {ego_id}) - {ego_id}
-    kept_first = _strongest(session, ties, found_first, {ego_id}, cap, weight)
+    # Alters are chosen on counts made by the database; evidence rows are read only for the drawn.
+    first = totals([ego_id])
+    found_first = _neighbours(first, {ego_id}) - {ego_id}
+    kept_first = _strongest(session, first, found_first, {ego_id}, cap)
     kept_second: set[int] = set()
     left_out = {1: len(found_first) - len(kept_first)}
     if radius == 2:
-        fetch(sorted(kept_first))
-        ties = _ties(rows.values(), direction)
-        found_second = _neighbours(ties, kept_first) - found_first - {ego_id}
-        kept_second = _strongest(session, ties, found_second, kept_first, max(cap - len(kept_first), 0), weight)
+        second = totals(kept_first)
+        found_second = _neighbours(second, kept_first) - found_first - {ego_id}
+        kept_second = _strongest(session, second, found_second, kept_first, max(cap - len(kept_first), 0))
         left_out[2] = len(found_second) - len(kept_second)
-        fetch(sorted(kept_second), both_ends=True)
-    else:
-        fetch(sorted(kept_first), both_ends=True)
 
     drawn = {ego_id} | kept_first | kept_second
     labels = list_person_labels(session=session, ids=drawn)
-    inside = [r for r in rows.values() if r.person_a in drawn and r.person_b in drawn]
+    inside = relation_evidence(session, resolved, persons=sorted(drawn), both_ends=True)
     kinds = {k.id: k for k in list_relation_kinds(session=session)}
     edges = [_edge(tie, labels, kinds, weight) for tie in _ties(inside, direction).values()]
     edges.sort(key=lambda e: (e.source, e.target, e.kind))
@@ -198,19 +191,42 @@ def _ties(rows: Iterable[EvidenceRow], direction: str) -> dict[tuple, _Tie]:
     return ties
 
 
-def _neighbours(ties: dict[tuple, _Tie], persons: set[int]) -> set[int]:
+def _strengths(totals: Iterable[RelationTotal], direction: str, weight: str) -> dict[tuple, list[float]]:
+    """Return [weight, documents, attestations] of each tie (pair and kind) under the direction mode.
+
+    Used to choose alters: where two directions merge into one tie their counts are added.
+    """
+    strengths: dict[tuple, list[float]] = {}
+    directions: dict[tuple, set[tuple[int, int]]] = defaultdict(set)
+    for total in totals:
+        a, b = total.person_a, total.person_b
+        if direction != "recorded" and total.directed:
+            directions[(min(a, b), max(a, b), total.kind_id)].add((a, b))
+            a, b = min(a, b), max(a, b)
+        s = strengths.setdefault((a, b, total.kind_id), [0.0, 0, 0])
+        s[0] += tie_weight(total.attestations, total.documents, weight)
+        s[1] += total.documents
+        s[2] += total.attestations
+    if direction == "reciprocal":
+        for key, seen in directions.items():
+            if key[0] != key[1] and len(seen) < 2:  # a directed kind attested one way only
+                del strengths[key]
+    return strengths
+
+
+def _neighbours(ties: dict[tuple, list[float]], persons: set[int]) -> set[int]:
     """Return every person tied to one of ``persons`` (either way)."""
     found: set[int] = set()
-    for tie in ties.values():
-        if tie.person_a in persons:
-            found.add(tie.person_b)
-        if tie.person_b in persons:
-            found.add(tie.person_a)
+    for a, b, _kind in ties:
+        if a in persons:
+            found.add(b)
+        if b in persons:
+            found.add(a)
     return found
 
 
 def _strongest(
-    session: Session, ties: dict[tuple, _Tie], candidates: set[int], anchors: set[int], cap: int, weight: str
+    session: Session, ties: dict[tuple, list[float]], candidates: set[int], anchors: set[int], cap: int
 ) -> set[int]:
     """Return at most ``cap`` candidates, those with the strongest ties to ``anchors`` first.
 
@@ -219,16 +235,16 @@ def _strongest(
     """
     if len(candidates) <= cap:
         return set(candidates)
-    strength: dict[int, list[float]] = {p: [0.0, 0, 0] for p in candidates}
-    for tie in ties.values():
-        for person, other in ((tie.person_a, tie.person_b), (tie.person_b, tie.person_a)):
-            if person in strength and other in anchors:
-                s = strength[person]
-                s[0] += tie_weight(len(tie.attestation_ids), len(tie.documents), weight)
-                s[1] += len(tie.documents)
-                s[2] += len(tie.attestation_ids)
     if cap == 0:
         return set()
+    strength: dict[int, list[float]] = {p: [0.0, 0, 0] for p in candidates}
+    for (a, b, _kind), tie in ties.items():
+        for person, other in ((a, b), (b, a)):
+            if person in strength and other in anchors:
+                s = strength[person]
+                s[0] += tie[0]
+                s[1] += tie[1]
+                s[2] += tie[2]
     ranked = sorted(candidates, key=lambda p: [-x for x in strength[p]])
     boundary = strength[ranked[cap - 1]]
     kept = {p for p in ranked[:cap] if strength[p] != boundary}

@@ -12,6 +12,7 @@ from generate import generate
 from sqlalchemy import text
 
 from app.config import Settings
+from app.db import Database, upgrade
 from app.main import create_app
 
 PERSONS, ATTESTATIONS = 20_000, 200_000
@@ -19,9 +20,9 @@ PERSONS, ATTESTATIONS = 20_000, 200_000
 
 def test_browse_person_and_ego(cache_dir):
     path = cache_dir / f"browse-{PERSONS}-{ATTESTATIONS}.db"
-    database = generate(path, persons=PERSONS, attestations=ATTESTATIONS) if not path.exists() else None
-    if database:
-        database.dispose()
+    database = generate(path, persons=PERSONS, attestations=ATTESTATIONS) if not path.exists() else Database(f"sqlite:///{path}")
+    upgrade(database)  # a cached database from an older schema
+    database.dispose()
     client = TestClient(create_app(Settings(database_url=f"sqlite:///{path}")))
     with client.app.state.database.read() as session:
         degrees = session.execute(text(

@@ -92,7 +92,7 @@ def test_ties_page_lists_every_attestation_between_the_two(client: TestClient):
         ("letter", ["r-2", "r-3"]),
         ("sibling", [siblings["s-ed"], siblings["s-1"]]),  # date order: 1703-01-01 before 1703-05-12
     ]
-    headings = [s.h3.select_one(".tie-direction").get_text(" ", strip=True) for s in relations]
+    headings = [s.select_one(".tie-relation-heading .tie-direction").get_text(" ", strip=True) for s in relations]
     assert headings == [
         "Anna Vell (sender) → Jost Brenner (recipient)",
         "Jost Brenner (sender) → Anna Vell (recipient)",
@@ -220,10 +220,13 @@ def test_htmx_request_gets_the_panel_only(client: TestClient):
     piece = soup_of(response)
     assert piece.find("header") is None and piece.find("title") is None
     panel = piece.select_one("section#ties")
-    assert panel is not None and panel.select_one("h2#ties-heading") is not None
+    assert panel is not None and panel.select_one("h4#ties-heading") is not None  # under the panel's h3
     assert sorted(attestation_keys(panel)) == ["r-1", "r-2", "r-3"]
     full = soup_of(client.get("/ties/p-anna/p-jost?kind=letter"))
     assert full.select_one("h1#ties-heading") is not None and full.select_one("header.site-header") is not None
+    # Each relation is one level below the heading: h2 on the page, h5 in the panel.
+    assert full.select("#ties section.tie-relation > h2") and not full.select("#ties h3")
+    assert panel.select("section.tie-relation > h5") and not panel.select("h1, h2, h3")
 
 
 def test_ties_page_and_json_show_the_same_figures(client: TestClient):

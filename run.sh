@@ -53,6 +53,7 @@ case "$command" in
   demo)
     setup_venv
     demo_db=${ATTESTA_DEMO_DB:-demo.db}
+    export ATTESTA_DATASET_NAME=${ATTESTA_DATASET_NAME:-"Demo: an invented world, 1688-1740"}
     .venv/bin/attesta demo --db "$demo_db" --replace
     exec .venv/bin/attesta serve --db "$demo_db" "$@"
     ;;

@@ -236,7 +236,11 @@ def _node(node, place: Placement, ego: bool, attestations: int, network: EgoNetw
             label_x, label_y, anchor, rotate = lx, ly, "end" if left else "start", degrees + 180 if left else degrees
         else:
             c = math.cos(a)
-            anchor = "start" if c > 0.3 else "end" if c < -0.3 else "middle"
+            anchor = "start" if c > 0.15 else "end" if c < -0.15 else "middle"
+            if anchor == "middle":  # a centred label must fit between its neighbours on the ring
+                radius = math.hypot(place.x - WIDTH / 2, place.y - HEIGHT / 2)
+                chord = 2 * radius * math.sin(math.pi / max(place.ring_size, 2))
+                length = max(6, min(length, int((chord - 12) / (0.56 * font_size))))
             push = 8 if anchor == "middle" else 0  # labels above or below a node need a little more room
             label_x, label_y, rotate = lx, ly + push * math.copysign(1, math.sin(a)), 0.0
     where = "the ego" if ego else f"{node.distance} step{'s' if node.distance > 1 else ''} from the ego"

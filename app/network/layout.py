@@ -19,7 +19,7 @@ __all__ = ["HEIGHT", "WIDTH", "Placement", "ego_layout"]
 WIDTH = 1000
 HEIGHT = 1000
 MARGIN = 8
-RINGS = {1: (310.0,), 2: (205.0, 350.0)}  # ring radii with one ring and with two
+RINGS = {1: (280.0,), 2: (205.0, 350.0)}  # ring radii with one ring and with two
 
 
 @dataclass(frozen=True)

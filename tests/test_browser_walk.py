@@ -128,6 +128,8 @@ def test_from_a_spelling_to_the_documents_and_on_to_the_other_person(browser: Br
     expect(panel.locator(".count-line [data-documents]")).to_have_text(f"{documents} documents")
     assert page.evaluate("() => window.stillTheSamePage") is True
     assert page.url == person_url
+    # the clicked line stays marked as the one whose evidence the panel shows
+    expect(page.locator("a.ego-edge.is-chosen")).to_have_count(1)
     # The panel's headings sit under "Evidence of a tie" (h3), and the panel's outline skips no level.
     levels = heading_levels(page, "#ego-panel")
     assert all(after <= before + 1 for before, after in zip(levels, levels[1:])), levels

@@ -19,7 +19,9 @@ from app.config import Settings
 from app.db import Database, DatabaseError, check_schema
 from app.network.slice import SliceError
 from app.views import ego as ego_views
+from app.views import groups as groups_views
 from app.views import home
+from app.views import network as network_views
 from app.views import persons as persons_views
 from app.views import places as places_views
 from app.views import sources as sources_views
@@ -58,10 +60,12 @@ def create_app(settings: Settings) -> FastAPI:
     app.mount("/static", StaticFiles(directory=STATIC_DIR), name="static")
     app.include_router(home.router)
     app.include_router(persons_views.router)
+    app.include_router(groups_views.router)
     app.include_router(sources_views.router)
     app.include_router(places_views.router)
     app.include_router(ties_views.router)
     app.include_router(ego_views.router)
+    app.include_router(network_views.router)
 
     app.add_exception_handler(StarletteHTTPException, _http_error)
     app.add_exception_handler(RequestValidationError, _invalid_request)

@@ -459,3 +459,31 @@ class DataVersion(Base):
     id: Mapped[int] = mapped_column(primary_key=True)
     version: Mapped[int] = mapped_column(Integer, default=0)
     changed_at: Mapped[datetime | None] = mapped_column(DateTime)
+
+
+# --- stored results of measures ----------------------------------------------------------
+
+
+class StoredMeasure(Base):
+    """A measure computed on one slice at one data version, kept so that it survives a restart.
+
+    One row per measure, options, slice and visibility: a recompute replaces the row. A row
+    from an older data version is kept until then, so a page can show it as "computed at
+    version N" rather than lose it.
+    """
+
+    __tablename__ = "measure_result"
+    __table_args__ = (
+        UniqueConstraint("measure", "options", "slice_key", "visibility", name="uq_measure_result_request"),
+        CheckConstraint("seconds >= 0", name="seconds_not_negative"),
+    )
+
+    id: Mapped[int] = mapped_column(primary_key=True)
+    measure: Mapped[str] = mapped_column(String(50))  # a centrality name, or summary, components, ...
+    options: Mapped[str] = mapped_column(String(500))  # canonical JSON of the measure's options
+    slice_key: Mapped[str] = mapped_column(Text)  # the slice's query string, pairs sorted
+    visibility: Mapped[str] = mapped_column(String(100))  # which persons the viewer may see: "all" for now
+    data_version: Mapped[int] = mapped_column(Integer)  # the data version the result was computed at
+    result_json: Mapped[str] = mapped_column(Text)  # persons named by key, never by id
+    computed_at: Mapped[datetime] = mapped_column(DateTime)
+    seconds: Mapped[float] = mapped_column(Float)  # how long the computation took

@@ -57,7 +57,7 @@ def test_ego_page_in_a_browser(browser: Browser, db_path: Path, database: Databa
             page.keyboard.press("Tab")
             if page.evaluate("() => document.activeElement.closest('svg') !== null"):
                 break
-        assert page.evaluate("() => document.activeElement.getAttribute('class')") in ("ego-edge", "ego-node")
+        assert page.evaluate("() => document.activeElement.classList[0]") in ("ego-edge", "ego-node")
 
         # The slice form: choosing a kind and applying it redraws with that slice.
         page.locator('details[data-group="kinds"] > summary').click()

@@ -22,7 +22,9 @@ __all__ = [
     "PersonLabel",
     "get_person_label",
     "list_archives",
+    "list_collection_names",
     "list_person_labels",
+    "list_person_labels_by_key",
     "list_relation_kinds",
 ]
 
@@ -108,6 +110,26 @@ def list_person_labels(*, session: Session, ids: Iterable[int]) -> dict[int, Per
         )
         found.update((row.id, PersonLabel(*row)) for row in session.execute(query))
     return found
+
+
+def list_person_labels_by_key(*, session: Session, keys: Iterable[str]) -> dict[str, PersonLabel]:
+    """Return the persons of ``keys`` (current keys only), keyed by key; unknown keys are left out."""
+    wanted = sorted(set(keys))
+    found: dict[str, PersonLabel] = {}
+    for start in range(0, len(wanted), 500):  # stays under SQLite's limit of bound parameters
+        query = select(Person.id, Person.key, Person.name, Person.kind, Person.unidentified).where(
+            Person.key.in_(wanted[start : start + 500])
+        )
+        found.update((row.key, PersonLabel(*row)) for row in session.execute(query))
+    return found
+
+
+def list_collection_names(*, session: Session, ids: Iterable[int]) -> dict[int, str]:
+    """Return the names of the collections of ``ids``, keyed by id."""
+    wanted = sorted(set(ids))
+    if not wanted:
+        return {}
+    return dict(session.execute(select(Collection.id, Collection.name).where(Collection.id.in_(wanted))).all())
 
 
 def list_relation_kinds(*, session: Session) -> list[KindLabel]:

@@ -138,11 +138,29 @@ class Urls:
     def place(self, key: str, slice: Slice | None = None) -> str:
         return self._path(f"/places/{_seg(key)}", slice)
 
-    def groups(self) -> str:
-        return self._path("/groups")
+    def groups(self, *, q: str | None = None, kind: str | None = None) -> str:
+        return self._path("/groups", q=q or None, kind=kind or None)
 
-    def group(self, key: str) -> str:
-        return self._path(f"/groups/{_seg(key)}")
+    def group(self, key: str, slice: Slice | None = None) -> str:
+        """One group; with a slice, its drawing shows the slice's memberships and its links keep it."""
+        return self._path(f"/groups/{_seg(key)}", slice)
+
+    def group_members_csv(self, key: str) -> str:
+        return self._path(f"/groups/{_seg(key)}/members.csv")
+
+    def network(self, view: str = "", slice: Slice | None = None, **extra: str | None) -> str:
+        """A measure page (``network("centrality", slice, measure="degree")``), or the landing page."""
+        return self._path("/network" + (f"/{quote(view, safe='/:')}" if view else ""), slice, **extra)
+
+    def network_api(self, view: str = "", slice: Slice | None = None, **extra: str | None) -> str:
+        return self._path("/api/network" + (f"/{_seg(view)}" if view else ""), slice, **extra)
+
+    def network_recompute(self, view: str, slice: Slice | None = None, **extra: str | None) -> str:
+        """Where the recompute button of a measure page posts to."""
+        return self._path(f"/network/{_seg(view)}/recompute", slice, **extra)
+
+    def person_measures(self, key: str, slice: Slice | None = None) -> str:
+        return self._path(f"/persons/{_seg(key)}/measures", slice)
 
     def static(self, path: str) -> str:
         return self._path(f"/static/{path.lstrip('/')}")

@@ -1,0 +1,341 @@
+"""Measures on demand: computed on a slice, stored with the data version, shared by every process.
+
+:func:`get_or_compute` is the one door to every measure page: it returns the stored result of a
+request (measure, options, slice, visibility) when there is one, and otherwise builds the
+slice's graph, computes, stores and returns the result. A stored result outlives later writes:
+
+- an expensive measure (paths, cliques, communities) is served as it is, with the version it
+  was computed at, until someone asks for a recompute;
+- a cheap one (degrees, strength, eigenvector, PageRank, summary, components, cut points) is
+  recomputed as soon as the data version moved, unless its slice is large (``LARGE_SLICE``).
+
+Results are plain JSON with persons named by key, never by id, so that they read the same
+in every process and after a restart. A background worker can take over the computing part of
+:func:`get_or_compute_many` (``SliceGraph.build`` + :func:`compute_result`) without the pages noticing.
+"""
+
+from __future__ import annotations
+
+import json
+import math
+import time
+from collections import Counter
+from collections.abc import Hashable
+from dataclasses import asdict, dataclass, replace
+from datetime import UTC, datetime
+from typing import Any
+from urllib.parse import urlencode
+
+import networkx as nx
+from sqlalchemy.orm import Session
+
+from app.db import Database
+from app.network.measures import MEASURES, cliques, communities, components, compute, cuts, summarize
+from app.network.measures.results import MeasureError
+from app.network.slice import Slice, graph_from_evidence, relation_evidence, resolve_slice
+from app.store.measure_results import get_stored_result, save_result
+from app.store.network_labels import list_collection_names, list_person_labels
+from app.store.summary import get_data_version
+
+__all__ = [
+    "CHEAP",
+    "FAMILIES",
+    "LARGE_SLICE",
+    "SAMPLES",
+    "SAMPLE_ABOVE",
+    "VISIBILITY_ALL",
+    "Outcome",
+    "SliceGraph",
+    "compute_result",
+    "get_or_compute",
+    "get_or_compute_many",
+    "is_expensive",
+    "options_key",
+    "slice_key",
+]
+
+VISIBILITY_ALL = "all"
+"""The visibility of a viewer who may see every person."""
+FAMILIES = ("summary", "components", "cut-points", "cliques", "communities")
+"""The measure pages other than the centralities, by their path under /network/."""
+CHEAP = frozenset({"summary", "components", "cut-points", "degree", "in_degree", "out_degree", "strength",
+                   "in_strength", "out_strength", "eigenvector", "pagerank"})
+"""Measures recomputed silently when the data changed; the others wait for a recompute."""
+LARGE_SLICE = 3000
+"""Above this many persons even a cheap measure's stale result waits for a recompute."""
+SAMPLE_ABOVE = 3000
+"""Above this many persons, betweenness is first estimated from sampled path sources."""
+SAMPLES = 300
+"""Number of sampled path sources of that estimate."""
+SAMPLED = ("betweenness", "weighted_betweenness")
+
+
+@dataclass(frozen=True)
+class Outcome:
+    """A result and how fresh it is."""
+
+    measure: str
+    """The measure or page family."""
+    payload: dict[str, Any]
+    """The result (persons by key)."""
+    computed_at_version: int
+    """The data version it was computed at."""
+    current_version: int
+    """The data version now."""
+    computed_at: datetime
+    """When it was computed (UTC)."""
+    seconds: float
+    """How long the computation took."""
+    from_store: bool
+    """True when it was read from the stored results rather than computed for this request."""
+
+    @property
+    def changes_since(self) -> int:
+        """Writes to the data since the result was computed."""
+        return max(0, self.current_version - self.computed_at_version)
+
+
+def is_expensive(measure: str, persons: int | None = None) -> bool:
+    """Return True for a measure whose stale result is shown until someone asks for a recompute.
+
+    Paths, cliques and communities always are; on a slice of more than ``LARGE_SLICE`` persons
+    every measure is (reading the evidence alone takes seconds there, and the summary's exact
+    path lengths far longer).
+
+    Examples
+    --------
+    >>> is_expensive("betweenness"), is_expensive("degree"), is_expensive("degree", persons=20_000)
+    (True, False, True)
+    """
+    return measure not in CHEAP or (persons is not None and persons > LARGE_SLICE)
+
+
+def slice_key(slice_: Slice) -> str:
+    """Return the canonical text of a slice: its non-default parameters as a sorted query string.
+
+    Examples
+    --------
+    >>> slice_key(Slice(kind=("letter", "kinship"), certainty="probable"))
+    'certainty=probable&kind=kinship&kind=letter'
+    """
+    return urlencode(sorted(slice_.to_query()))
+
+
+def options_key(options: dict[str, Any]) -> str:
+    """Return the canonical JSON of a measure's options.
+
+    Examples
+    --------
+    >>> options_key({"seed": 0, "method": "leiden"})
+    '{"method":"leiden","seed":0}'
+    """
+    return json.dumps(options, sort_keys=True, separators=(",", ":"))
+
+
+def get_or_compute(
+    database: Database, *, measure: str, slice: Slice, options: dict[str, Any] | None = None,  # noqa: A002
+    visibility: str = VISIBILITY_ALL, recompute: bool = False,
+) -> Outcome:
+    """Return the stored result of the request, or compute, store and return it.
+
+    A stored result at the current data version is returned as it is; an older one is returned
+    for an expensive measure unless ``recompute``, and recomputed for a cheap one. Raises
+    MeasureError for an unknown measure or option, SliceError for a slice key that names nothing.
+    """
+    return get_or_compute_many(database, requests=[(measure, options or {})], slice=slice, visibility=visibility,
+                               recompute=recompute)[0]
+
+
+def get_or_compute_many(
+    database: Database, *, requests: list[tuple[str, dict[str, Any]]], slice: Slice,  # noqa: A002
+    visibility: str = VISIBILITY_ALL, recompute: bool = False,
+) -> list[Outcome]:
+    """Return the outcome of each (measure, options) on one slice, as :func:`get_or_compute` does.
+
+    The slice's graph is built once for all the measures that need computing.
+    """
+    for measure, _options in requests:
+        if measure not in MEASURES and measure not in FAMILIES:
+            raise MeasureError("measure", measure, "one of " + ", ".join([*MEASURES, *FAMILIES]))
+    keys = [{"measure": m, "options": options_key(o), "slice_key": slice_key(slice), "visibility": visibility}
+            for m, o in requests]
+    outcomes: list[Outcome | None] = []
+    with database.read() as session:
+        current = get_data_version(session=session)
+        for (measure, _options), key in zip(requests, keys):
+            stored = get_stored_result(session=session, **key)
+            fresh_enough = stored is not None and (
+                stored.data_version == current or is_expensive(measure, stored.payload.get("n")))
+            outcomes.append(Outcome(measure, stored.payload, stored.data_version, current, stored.computed_at,
+                                    stored.seconds, True) if fresh_enough and not recompute else None)
+    pending = [i for i, outcome in enumerate(outcomes) if outcome is None]
+    if not pending:
+        return outcomes  # type: ignore[return-value]
+    computed: dict[int, tuple[dict[str, Any], float]] = {}
+    with database.read() as session:
+        version = get_data_version(session=session)  # read in the same transaction as the evidence
+        graph = SliceGraph.build(session, slice)
+        for i in pending:
+            started = time.perf_counter()
+            payload = compute_result(session, graph, measure=requests[i][0], options=dict(requests[i][1]))
+            computed[i] = (payload, time.perf_counter() - started + (graph.seconds if i == pending[0] else 0.0))
+    computed_at = datetime.now(UTC).replace(tzinfo=None)
+    with database.write() as session:
+        for i, (payload, seconds) in computed.items():
+            saved = save_result(session=session, **keys[i], data_version=version, payload=payload,
+                                computed_at=computed_at, seconds=seconds)
+            outcomes[i] = Outcome(requests[i][0], saved.payload, saved.data_version, version, saved.computed_at,
+                                  saved.seconds, False)
+        current = get_data_version(session=session)
+    return [replace(outcome, current_version=current) for outcome in outcomes]  # type: ignore[arg-type]
+
+
+@dataclass(frozen=True)
+class SliceGraph:
+    """The graph of a slice with what the measures need beside it."""
+
+    slice: Slice
+    G: nx.Graph
+    key_of: dict[int, str]  # person id -> key
+    collection_of: dict[int, int | None]  # attestation id -> collection id (None: a printed source)
+    seconds: float  # time taken to read the evidence and build the graph
+
+    @classmethod
+    def build(cls, session: Session, slice_: Slice) -> SliceGraph:
+        """Read the slice's evidence and build its graph (SliceError for an unknown key)."""
+        started = time.perf_counter()
+        resolved = resolve_slice(session, slice_)
+        rows = relation_evidence(session, resolved)
+        G = graph_from_evidence(session, resolved, rows)
+        labels = list_person_labels(session=session, ids=list(G))
+        return cls(slice_, G, {node: labels[node].key for node in G},
+                   {row.attestation_id: row.collection_id for row in rows}, time.perf_counter() - started)
+
+
+def compute_result(session: Session, graph: SliceGraph, *, measure: str, options: dict[str, Any]) -> dict[str, Any]:
+    """Return the result of one measure on the slice's graph, as JSON data with persons by key."""
+    G, slice_, key_of = graph.G, graph.slice, graph.key_of
+    if measure == "summary":
+        return _summary(session, G, slice_, key_of, graph.collection_of)
+    if measure == "components":
+        return _components(G, slice_, key_of)
+    if measure == "cut-points":
+        return _cuts(G, slice_, key_of)
+    if measure == "cliques":
+        return _cliques(G, slice_, key_of, options)
+    if measure == "communities":
+        return _communities(G, slice_, key_of, options)
+    return _centrality(G, measure, slice_, key_of, options)
+
+
+# --- one function per page -------------------------------------------------------------------
+
+
+def _centrality(G: nx.Graph, measure: str, slice_: Slice, key_of: dict, options: dict[str, Any]) -> dict[str, Any]:
+    n = len(G)
+    samples = SAMPLES if measure in SAMPLED and not options.get("exact") and n > SAMPLE_ABOVE else None
+    result = compute(G, measure, loops=slice_.loops, node_set=slice_.nodes, samples=samples, seed=0)
+    errors = result.sampling.standard_errors if result.sampling else {}
+    rows = [
+        {"key": key_of[row.node], "rank": row.rank, "value": _number(row.value), "raw": _number(row.raw),
+         "standard_error": _number(errors.get(row.node)), "reason": row.reason}
+        for row in result.rows()
+    ]
+    sampling = None
+    if result.sampling is not None:
+        sampling = {"samples": result.sampling.samples, "seed": result.sampling.seed, "statement": result.sampling.statement}
+    return {"n": n, "directed": G.is_directed(), "engine": result.engine, "conventions": result.conventions,
+            "sampling": sampling, "rows": rows}
+
+
+def _summary(session: Session, G: nx.Graph, slice_: Slice, key_of: dict, collection_of: dict[int, int | None]) -> dict[str, Any]:
+    in_graph = {a for _, _, ids in G.edges(data="attestation_ids") for a in ids or ()}
+    per_collection = Counter(collection_of[a] for a in in_graph)
+    printed = per_collection.pop(None, 0)
+    names = list_collection_names(session=session, ids=list(per_collection))
+    counts = {names[c]: count for c, count in per_collection.items()}
+    summary = summarize(G, node_set=slice_.nodes, collection_counts=counts)
+    payload = asdict(summary)
+    for field in ("degree_distribution", "in_degree_distribution", "out_degree_distribution"):
+        if payload[field] is not None:
+            payload[field] = [[degree, persons] for degree, persons in payload[field].items()]
+    payload["collections"] = sorted(([name, count] for name, count in counts.items()), key=lambda item: (-item[1], item[0]))
+    payload["printed_attestations"] = printed
+    payload["n"] = len(G)
+    return _finite(payload)
+
+
+def _components(G: nx.Graph, slice_: Slice, key_of: dict) -> dict[str, Any]:
+    result = components(G, loops=slice_.loops, node_set=slice_.nodes)
+
+    def listed(parts):  # noqa: ANN001, ANN202
+        return [{"number": c.number, "size": c.size, "ties": c.ties, "members": _keys(c.members, key_of)} for c in parts]
+
+    return {"n": result.n, "directed": G.is_directed(), "components": listed(result.components),
+            "strong": listed(result.strong) if result.strong is not None else None,
+            "isolates": _keys(result.isolates, key_of), "largest_share": result.largest_share,
+            "conventions": result.conventions}
+
+
+def _cuts(G: nx.Graph, slice_: Slice, key_of: dict) -> dict[str, Any]:
+    result = cuts(G, node_set=slice_.nodes)
+    return {
+        "n": len(G), "directed": G.is_directed(), "conventions": result.conventions,
+        "cut_points": [{"key": key_of[c.node], "pieces": c.pieces, "component_size": c.component_size,
+                        "cut_off": c.cut_off} for c in result.cut_points],
+        "bridges": [{"a": key_of[b.u], "b": key_of[b.v], "sides": list(b.sides), "weight": b.weight,
+                     "documents": b.documents, "attestations": b.attestations, "relation_ids": b.relation_ids,
+                     "single_document": b.single_document} for b in result.bridges],
+    }  # fmt: skip
+
+
+def _cliques(G: nx.Graph, slice_: Slice, key_of: dict, options: dict[str, Any]) -> dict[str, Any]:
+    result = cliques(G, min_size=options.get("min_size", 3), node_set=slice_.nodes)
+    per_person = sorted(((key_of[v], count) for v, count in result.per_node.items() if count), key=lambda item: (-item[1], item[0]))
+    return {"n": len(G), "directed": G.is_directed(), "conventions": result.conventions, "min_size": result.min_size,
+            "limit": result.limit, "complete": result.complete,
+            "cliques": [{"number": c.number, "members": _keys(c.members, key_of)} for c in result.cliques],
+            "per_person": [{"key": key, "cliques": count} for key, count in per_person]}  # fmt: skip
+
+
+def _communities(G: nx.Graph, slice_: Slice, key_of: dict, options: dict[str, Any]) -> dict[str, Any]:
+    result = communities(G, method=options.get("method", "leiden"), seed=options.get("seed", 0),
+                         loops=slice_.loops, node_set=slice_.nodes)
+    stability = None
+    if result.stability is not None:
+        s = result.stability
+        stability = {"seeds": s.seeds, "mutual_information": s.mutual_information,
+                     "lowest_mutual_information": s.lowest_mutual_information, "statement": s.statement,
+                     "consistency": {key_of[v]: value for v, value in s.consistency.items()}}
+    return _finite({
+        "n": len(G), "directed": G.is_directed(), "conventions": result.conventions, "method": result.method,
+        "seed": result.seed, "engine": result.engine, "modularity": result.modularity,
+        "communities": [{"number": c.number, "members": _keys(c.members, key_of), "ties": c.ties, "weight": c.weight}
+                        for c in result.communities],
+        "links": [{"a": link.a, "b": link.b, "ties": link.ties, "weight": link.weight} for link in result.links],
+        "isolates": _keys(result.isolates, key_of), "stability": stability,
+    })  # fmt: skip
+
+
+# --- helpers -------------------------------------------------------------------------------
+
+
+def _keys(nodes: list[Hashable], key_of: dict) -> list[str]:
+    return [key_of[v] for v in nodes]
+
+
+def _number(value: float | None) -> float | None:
+    """JSON has no NaN or infinity: an undefined figure is null (each row gives its reason)."""
+    if value is None or not math.isfinite(value):
+        return None
+    return float(value)
+
+
+def _finite(data: Any) -> Any:
+    if isinstance(data, float):
+        return _number(data)
+    if isinstance(data, dict):
+        return {k: _finite(v) for k, v in data.items()}
+    if isinstance(data, list):
+        return [_finite(v) for v in data]
+    return data

@@ -1,0 +1,100 @@
+"""Stored results of measures: read the newest one for a request, and replace it with a new one.
+
+A result is stored per measure, options, slice and viewer visibility, with the data version it
+was computed at. It is never thrown away when the data change: the page shows it as "computed at
+version N" until someone recomputes it, which replaces the row.
+"""
+
+from __future__ import annotations
+
+import json
+from dataclasses import dataclass
+from datetime import datetime
+from typing import Any
+
+from sqlalchemy import delete, func, select
+from sqlalchemy.orm import Session
+
+from app.models import StoredMeasure
+
+__all__ = ["StoredResult", "count_stored_results", "get_stored_result", "save_result"]
+
+
+@dataclass(frozen=True)
+class StoredResult:
+    """One stored result and when it was made."""
+
+    measure: str
+    """The measure or page family (``betweenness``, ``summary``, ``communities``...)."""
+    options: str
+    """Its options as canonical JSON."""
+    slice_key: str
+    """The slice's query string with its pairs sorted."""
+    visibility: str
+    """Which persons the viewer may see ("all")."""
+    data_version: int
+    """The data version the result was computed at."""
+    payload: dict[str, Any]
+    """The result itself (persons named by key)."""
+    computed_at: datetime
+    """When it was computed (UTC)."""
+    seconds: float
+    """How long the computation took."""
+
+
+def get_stored_result(*, session: Session, measure: str, options: str, slice_key: str, visibility: str) -> StoredResult | None:
+    """Return the stored result of this request, whatever its data version, or None."""
+    row = session.scalars(
+        select(StoredMeasure).where(
+            StoredMeasure.measure == measure,
+            StoredMeasure.options == options,
+            StoredMeasure.slice_key == slice_key,
+            StoredMeasure.visibility == visibility,
+        )
+    ).first()
+    return _stored(row) if row is not None else None
+
+
+def save_result(
+    *, session: Session, measure: str, options: str, slice_key: str, visibility: str, data_version: int,
+    payload: dict[str, Any], computed_at: datetime, seconds: float,
+) -> StoredResult:
+    """Store a result in place of the one of the same request; return what is stored now.
+
+    A row computed at a newer data version (by another process, after this computation read
+    the data) is kept, and returned, rather than replaced by an older result.
+    """
+    conditions = (
+        StoredMeasure.measure == measure,
+        StoredMeasure.options == options,
+        StoredMeasure.slice_key == slice_key,
+        StoredMeasure.visibility == visibility,
+    )
+    newer = session.scalars(select(StoredMeasure).where(*conditions, StoredMeasure.data_version > data_version)).first()
+    if newer is not None:
+        return _stored(newer)
+    session.execute(delete(StoredMeasure).where(*conditions))
+    row = StoredMeasure(
+        measure=measure, options=options, slice_key=slice_key, visibility=visibility, data_version=data_version,
+        result_json=json.dumps(payload, allow_nan=False, separators=(",", ":")), computed_at=computed_at,
+        seconds=max(0.0, seconds),
+    )
+    session.add(row)
+    session.flush()
+    return _stored(row, payload)
+
+
+def count_stored_results(*, session: Session, measure: str | None = None) -> int:
+    """Return how many results are stored (of one measure, if given)."""
+    query = select(func.count()).select_from(StoredMeasure)
+    if measure is not None:
+        query = query.where(StoredMeasure.measure == measure)
+    return session.scalar(query) or 0
+
+
+def _stored(row: StoredMeasure, payload: dict[str, Any] | None = None) -> StoredResult:
+    return StoredResult(
+        measure=row.measure, options=row.options, slice_key=row.slice_key, visibility=row.visibility,
+        data_version=row.data_version, payload=payload if payload is not None else json.loads(row.result_json),
+        computed_at=row.computed_at, seconds=row.seconds,
+    )

@@ -1,0 +1,89 @@
+"""The groups index and a group's page in a real headless Chromium served by a real uvicorn."""
+
+from __future__ import annotations
+
+from pathlib import Path
+from urllib.parse import parse_qs, urlsplit
+
+import pytest
+from playwright.sync_api import Browser, expect, sync_playwright
+
+from app.config import database_url
+from app.db import Database, upgrade
+from app.exchange.workbook import import_workbook
+from conftest import ARTIFACTS, chromium_path
+from helpers import running_server
+from test_browser_home import CHROMIUM_ARGS, open_page
+from tests.test_groups import world
+from tests.twomode_world import MARKUP_GROUP
+from tests.workbooks import write_workbook
+
+pytestmark = pytest.mark.browser
+
+
+@pytest.fixture(scope="module")
+def browser():
+    with sync_playwright() as playwright:
+        chromium = playwright.chromium.launch(executable_path=chromium_path(), args=CHROMIUM_ARGS)
+        yield chromium
+        chromium.close()
+
+
+@pytest.fixture(scope="module")
+def base_url(tmp_path_factory):
+    folder: Path = tmp_path_factory.mktemp("browser-groups")
+    database = Database(database_url(folder / "attesta.db"))
+    upgrade(database)
+    import_workbook(database, write_workbook(folder / "wb", world()), size_limit=10**9)
+    database.dispose()
+    with running_server(database_url(folder / "attesta.db")) as url:
+        yield url
+
+
+def test_find_a_group_open_it_and_walk_from_the_drawing(browser: Browser, base_url: str):
+    ARTIFACTS.mkdir(exist_ok=True)
+    page, outside = open_page(browser, base_url)
+    page.goto(f"{base_url}/")
+    page.get_by_role("link", name="Groups", exact=True).click()
+    rows = page.locator("#group-rows tbody tr")
+    expect(rows).to_have_count(17)
+
+    # The search and the kind narrow the list in place (htmx); the address follows.
+    page.evaluate("() => { window.stillTheSamePage = true; }")
+    page.get_by_label("Find a group by a word of its name").fill("OSTMERE")
+    expect(rows).to_have_count(2)
+    page.get_by_label("Kind").select_option("parish")
+    expect(rows).to_have_count(1)
+    assert page.evaluate("() => window.stillTheSamePage") is True
+    assert parse_qs(urlsplit(page.url).query) == {"q": ["OSTMERE"], "kind": ["parish"]}
+    expect(page.locator("#group-rows")).to_have_count(1)  # swapped, not nested
+
+    rows.first.locator("a.group-link").click()
+    expect(page.locator("h1")).to_contain_text("St. Ælfric, Østmere")
+    svg = page.locator("svg.group-svg")
+    expect(svg).to_be_visible()
+    expect(svg.locator("a.gn-node")).to_have_count(6)
+    expect(svg.locator('a[data-key="g-guild"] text')).to_contain_text("<b>Guild</b>")  # shown as text
+    page.screenshot(path=str(ARTIFACTS / "group.png"), full_page=True)
+
+    # The citations of a membership open from the keyboard, without a script of ours.
+    summary = page.locator('li.membership[data-person="p-cas"] details summary')
+    summary.focus()
+    page.keyboard.press("Enter")
+    expect(page.locator('li.membership[data-person="p-cas"] li.attestation')).to_be_visible()
+
+    # A group mark in the drawing is a link reached and followed from the keyboard.
+    page.locator('svg.group-svg a[data-key="g-guild"]').focus()
+    page.keyboard.press("Enter")
+    expect(page.locator("h1")).to_contain_text(MARKUP_GROUP)
+    page.locator('svg.group-svg a[data-key="p-bette"] circle').click()
+    expect(page.locator("h1")).to_contain_text("Bette Brink")
+
+    # Narrow screens: nothing wider than the window.
+    narrow, _ = open_page(browser, base_url, width=380, height=800)
+    narrow.goto(f"{base_url}/groups/g-parish")
+    assert narrow.evaluate("() => document.documentElement.scrollWidth") <= 380
+    narrow.screenshot(path=str(ARTIFACTS / "group-narrow.png"), full_page=True)
+    narrow.goto(f"{base_url}/groups")
+    assert narrow.evaluate("() => document.documentElement.scrollWidth") <= 380
+    assert outside == []

@@ -9,6 +9,8 @@ under it. The person page includes the same panel (``_ego_panel.html``, view-mod
 from __future__ import annotations
 
 import textwrap
+import threading
+from collections import OrderedDict
 from dataclasses import dataclass
 
 from fastapi import APIRouter, HTTPException, Query, Request
@@ -63,11 +65,35 @@ class EgoPanel:
     """Data version the network was read at (cite it with the drawing)."""
 
 
+_PANELS: OrderedDict[tuple, EgoPanel] = OrderedDict()
+_PANELS_LOCK = threading.Lock()
+PANEL_CACHE_SIZE = 128
+"""Ego panels kept in memory per server process, keyed by database, data version, slice, person and radius."""
+
+
 def ego_panel(*, session: Session, person_key: str, slice: Slice, radius: int) -> EgoPanel:  # noqa: A002
-    """Return the ego network panel of the person ``person_key``; 404 when there is none."""
+    """Return the ego network panel of the person ``person_key``; 404 when there is none.
+
+    A panel depends only on the data and the slice, so it is kept until the data version changes:
+    a hub's neighbourhood is read once, not on every visit.
+    """
     person = get_person_label(session=session, key=person_key)
     if person is None:
         raise HTTPException(status_code=404, detail=f"There is no person with the key {person_key}.")
+    key = (str(session.get_bind().url), get_data_version(session=session), slice, person.id, radius)
+    with _PANELS_LOCK:
+        if key in _PANELS:
+            _PANELS.move_to_end(key)
+            return _PANELS[key]
+    panel = _build_panel(session, person, slice, radius)
+    with _PANELS_LOCK:
+        _PANELS[key] = panel
+        while len(_PANELS) > PANEL_CACHE_SIZE:
+            _PANELS.popitem(last=False)
+    return panel
+
+
+def _build_panel(session: Session, person, slice: Slice, radius: int) -> EgoPanel:  # noqa: A002, ANN001
     resolved = resolve_slice(session, slice)
     network = ego_network(session, resolved, person.id, radius=radius)
     kinds = list_relation_kinds(session=session)

@@ -239,6 +239,7 @@ def test_the_slice_chooses_what_is_drawn(client: TestClient):
     # max_group_size leaves out the large groups around, never the group of the page
     guild = client.get("/api/groups/g-guild?max_group_size=3").json()["neighbourhood"]
     assert guild["members"] == 2 and guild["shared_groups"] == []
+    assert "more than 3 members in the slice are left out" in guild["notes"][-1]
     parish = client.get("/api/groups/g-parish?max_group_size=3").json()["neighbourhood"]
     assert parish["members"] == 4 and [s["key"] for s in parish["shared_groups"]] == ["g-guild"]
     empty = soup_of(client.get("/groups/g-confraternity"))

@@ -30,6 +30,7 @@ from app.network.twomode import (
     adjacency_csv,
     bipartite_graph,
     describe_term,
+    groups_in_common,
     incidence,
     incidence_csv,
     membership_evidence,
@@ -265,6 +266,13 @@ def test_overlap_required_ties_only_members_at_the_same_time(parish):
     by_group = projected_graph(evidence, onto="groups", overlap="required")
     assert [d["persons"] for _, _, d in by_group.edges(data=True)] == [[next(p for p, k in persons.items() if k == "p-aart")]]
     assert next(iter(projected_graph(evidence, onto="groups").edges(data="shared")))[2] == 2
+    # what the tie of Aart and Bette rests on, group by group
+    aart, bette = (next(p for p, k in persons.items() if k == key) for key in ("p-aart", "p-bette"))
+    common = groups_in_common(evidence, aart, bette)
+    assert [(c.group, c.overlap) for c in common] == sorted([(parish_id, False), (guild_id, True)])
+    assert [m.role for c in common for m in c.second if c.group == guild_id] == ["master"]
+    dirk = next(p for p, k in persons.items() if k == "p-dirk")
+    assert [(c.group, c.overlap) for c in groups_in_common(evidence, aart, dirk)] == [(parish_id, None)]
     matrix = project(evidence, overlap="required").matrix
     assert (matrix != matrix.T).nnz == 0 and matrix.diagonal().sum() == 0
 

@@ -14,7 +14,7 @@ from __future__ import annotations
 import math
 from collections import defaultdict
 from collections.abc import Mapping, Sequence
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 from typing import Protocol
 
 from sqlalchemy.orm import Session
@@ -368,4 +368,9 @@ def neighbourhood_of_group(session: Session, resolved: ResolvedSlice, group_id: 
     evidence = centre + others
     persons = list_person_labels(session=session, ids=members)
     groups = group_refs(session=session, group_ids={group_id} | {m.group for m in others})
-    return group_neighbourhood(group_id, evidence, persons=persons, groups=groups)
+    found = group_neighbourhood(group_id, evidence, persons=persons, groups=groups)
+    limit = resolved.slice.max_group_size
+    if limit is not None and members:
+        note = f"Other groups with more than {limit} members in the slice are left out (max_group_size={limit})."
+        found = replace(found, notes=[*found.notes, note])
+    return found

@@ -35,6 +35,7 @@ __all__ = [
     "OVERLAPS",
     "PROJECTION_MODES",
     "WEIGHTINGS",
+    "CommonGroup",
     "Incidence",
     "MembershipEvidence",
     "Projection",
@@ -42,6 +43,7 @@ __all__ = [
     "adjacency_csv",
     "bipartite_graph",
     "describe_term",
+    "groups_in_common",
     "incidence",
     "incidence_csv",
     "membership_evidence",
@@ -205,6 +207,44 @@ def overlapping(a: MembershipEvidence, b: MembershipEvidence) -> bool | None:
     if a.start is None or b.start is None:
         return None
     return a.start <= b.end and b.start <= a.end
+
+
+@dataclass(frozen=True)
+class CommonGroup:
+    """A group two persons share, with the memberships of each and whether their terms overlap."""
+
+    group: int
+    """Id of the group."""
+    first: list[MembershipEvidence]
+    """Memberships of the first person in it (one per role)."""
+    second: list[MembershipEvidence]
+    """Memberships of the second person in it."""
+    overlap: bool | None
+    """True when a term of one overlaps a term of the other, False when none does, None when
+    every pair has an undated membership."""
+
+
+def groups_in_common(evidence: Iterable[MembershipEvidence], a: int, b: int) -> list[CommonGroup]:
+    """Return the groups persons ``a`` and ``b`` share, by group id: what a projected tie rests on.
+
+    Examples
+    --------
+    >>> m = lambda p, g, y: MembershipEvidence(0, p, g, "", date(y, 1, 1), date(y, 12, 31), "attestations",
+    ...                                        "attestations", None, None, (), ())
+    >>> [(c.group, c.overlap) for c in groups_in_common([m(1, 5, 1650), m(2, 5, 1712), m(1, 6, 1700), m(2, 6, 1700)], 1, 2)]
+    [(5, False), (6, True)]
+    """
+    of: dict[int, dict[int, list[MembershipEvidence]]] = defaultdict(lambda: {a: [], b: []})
+    for m in evidence:
+        if m.person in (a, b):
+            of[m.group][m.person].append(m)
+    common = []
+    for group, by_person in sorted(of.items()):
+        if by_person[a] and by_person[b]:
+            verdicts = {overlapping(x, y) for x in by_person[a] for y in by_person[b]}
+            overlap = True if True in verdicts else (False if False in verdicts else None)
+            common.append(CommonGroup(group=group, first=by_person[a], second=by_person[b], overlap=overlap))
+    return common
 
 
 # --- the two-mode graph ------------------------------------------------------------------

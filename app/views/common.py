@@ -36,6 +36,7 @@ __all__ = [
     "SettingsDep",
     "Urls",
     "is_api_request",
+    "page_number",
     "render",
     "render_error",
     "templates",
@@ -154,6 +155,10 @@ class Urls:
 
     def network_api(self, view: str = "", slice: Slice | None = None, **extra: str | None) -> str:
         return self._path("/api/network" + (f"/{_seg(view)}" if view else ""), slice, **extra)
+
+    def network_job(self, job_id: int) -> str:
+        """The status of a background job (polled by a page that waits for a heavy measure)."""
+        return self._path(f"/network/jobs/{int(job_id)}")
 
     def network_recompute(self, view: str, slice: Slice | None = None, **extra: str | None) -> str:
         """Where the recompute button of a measure page posts to."""
@@ -311,6 +316,19 @@ class BadParameter(HTTPException):
         self.parameter = name
         self.accepted = accepted
         super().__init__(status_code=400, detail=f"{name}={value!s} is not accepted; accepted: {accepted}")
+
+
+def page_number(value: str | None) -> int:
+    """Return the number of ``?page=``; anything but a whole number of 1 or more is a 400."""
+    if value is None or not value.strip():
+        return 1
+    try:
+        number = int(value)
+    except ValueError:
+        number = 0
+    if number < 1:
+        raise BadParameter("page", value, "a whole number of 1 or more")
+    return number
 
 
 def render_error(

@@ -21,10 +21,10 @@ from app.store.persons import (
     person_id,
     search_persons,
 )
-from app.views.common import BadParameter, SessionDep, SliceDep, render
+from app.views.common import BadParameter, SessionDep, SliceDep, page_number, render
 from app.views.ego import ego_panel
 
-__all__ = ["PersonPage", "PersonsPage", "parse_page", "person_or_redirect", "person_view", "persons_view", "router"]
+__all__ = ["PersonPage", "PersonsPage", "person_or_redirect", "person_view", "persons_view", "router"]
 
 router = APIRouter(tags=["persons"])
 
@@ -59,25 +59,12 @@ class PersonPage:
     """The ego network panel drawn around the person (filled in by the ego view; None when not drawn)."""
 
 
-def parse_page(value: str | None) -> int:
-    """Return the page number of ``?page=``; anything but a whole number of 1 or more is a 400."""
-    if value is None or value.strip() == "":
-        return 1
-    try:
-        number = int(value)
-    except ValueError:
-        number = 0
-    if number < 1:
-        raise BadParameter("page", value, "a whole number of 1 or more")
-    return number
-
-
 def persons_view(*, session: Session, q: str = "", sort: str | None = None, page: str | None = None) -> PersonsPage:
     """Return the view-model of the index: best matches first when searching, else by name."""
     sort = (sort or "").strip().lower() or ("match" if q.strip() else "name")
     if sort not in PERSON_SORTS:
         raise BadParameter("sort", sort, PERSON_SORTS)
-    number = parse_page(page)
+    number = page_number(page)
     result = search_persons(session=session, q=q, sort=sort, page=number)
     if number > result.pages:
         raise BadParameter("page", page, f"a whole number from 1 to {result.pages}")

@@ -32,7 +32,7 @@ from app.store.sources import (
     list_source_kinds,
     search_sources,
 )
-from app.views.common import BadParameter, SessionDep, SliceDep, render
+from app.views.common import BadParameter, SessionDep, SliceDep, page_number, render
 
 __all__ = [
     "CollectionPage",
@@ -41,7 +41,6 @@ __all__ = [
     "SourcePage",
     "SourcesPage",
     "collection_view",
-    "page_number",
     "repositories_view",
     "repository_view",
     "router",
@@ -53,19 +52,6 @@ router = APIRouter(tags=["documents"])
 
 
 # --- parameters ------------------------------------------------------------------------------
-
-
-def page_number(value: str | None) -> int:
-    """Return the number of ``?page=``; anything but a whole number of 1 or more is a 400."""
-    if value is None or not value.strip():
-        return 1
-    try:
-        number = int(value)
-    except ValueError:
-        number = 0
-    if number < 1:
-        raise BadParameter("page", value, "a whole number of 1 or more")
-    return number
 
 
 def _check_last_page(value: str | None, listed: SourceList) -> None:

@@ -17,6 +17,7 @@ from starlette.exceptions import HTTPException as StarletteHTTPException
 
 from app.config import Settings
 from app.db import Database, DatabaseError, check_schema
+from app.network.jobs import Worker
 from app.network.slice import SliceError
 from app.views import ego as ego_views
 from app.views import groups as groups_views
@@ -46,9 +47,13 @@ def create_app(settings: Settings) -> FastAPI:
         database.dispose()
         raise
 
+    worker = Worker(database)  # heavy measures run in one background process, started when needed
+
     @asynccontextmanager
     async def lifespan(_app: FastAPI) -> AsyncIterator[None]:
+        worker.start()  # requeues jobs a killed server left running
         yield
+        worker.stop()
         database.dispose()
 
     # The interactive API pages would load their scripts from a CDN; the site makes no
@@ -56,6 +61,7 @@ def create_app(settings: Settings) -> FastAPI:
     app = FastAPI(title="Attesta", description=DESCRIPTION, docs_url=None, redoc_url=None, lifespan=lifespan)
     app.state.settings = settings
     app.state.database = database
+    app.state.worker = worker
 
     app.mount("/static", StaticFiles(directory=STATIC_DIR), name="static")
     app.include_router(home.router)

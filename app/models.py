@@ -487,3 +487,32 @@ class StoredMeasure(Base):
     result_json: Mapped[str] = mapped_column(Text)  # persons named by key, never by id
     computed_at: Mapped[datetime] = mapped_column(DateTime)
     seconds: Mapped[float] = mapped_column(Float)  # how long the computation took
+
+
+class Job(Base):
+    """A heavy measure waiting for, or computed by, the background worker.
+
+    One live row (queued or running) per measure, options, slice, visibility and data version:
+    a second request for the same result joins it. The result itself goes to ``measure_result``.
+    """
+
+    __tablename__ = "job"
+    __table_args__ = (
+        CheckConstraint("state IN ('queued', 'running', 'done', 'failed')", name="state_known"),
+        CheckConstraint("progress >= 0 AND progress <= 1", name="progress_in_range"),
+        Index("ix_job_state_created", "state", "created_at"),
+    )
+
+    id: Mapped[int] = mapped_column(primary_key=True)
+    measure: Mapped[str] = mapped_column(String(50))
+    options: Mapped[str] = mapped_column(String(500))  # canonical JSON of the measure's options
+    slice_key: Mapped[str] = mapped_column(Text)
+    visibility: Mapped[str] = mapped_column(String(100))
+    data_version: Mapped[int] = mapped_column(Integer)  # the data version it was requested at
+    state: Mapped[str] = mapped_column(String(10), default="queued")
+    progress: Mapped[float] = mapped_column(Float, default=0.0)
+    requested_by: Mapped[str] = mapped_column(String(100))
+    created_at: Mapped[datetime] = mapped_column(DateTime)
+    started_at: Mapped[datetime | None] = mapped_column(DateTime, nullable=True)
+    finished_at: Mapped[datetime | None] = mapped_column(DateTime, nullable=True)
+    error: Mapped[str | None] = mapped_column(Text, nullable=True)

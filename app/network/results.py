@@ -20,7 +20,7 @@ import json
 import math
 import time
 from collections import Counter
-from collections.abc import Hashable
+from collections.abc import Callable, Hashable
 from dataclasses import asdict, dataclass, replace
 from datetime import UTC, datetime
 from typing import Any
@@ -32,7 +32,7 @@ from sqlalchemy.orm import Session
 from app.db import Database
 from app.network.measures import MEASURES, cliques, communities, components, compute, cuts, summarize
 from app.network.measures.results import MeasureError
-from app.network.slice import Slice, graph_from_evidence, relation_evidence, resolve_slice
+from app.network.slice import ResolvedSlice, Slice, collection_counts, graph_from_totals, resolve_slice, slice_totals
 from app.store.measure_results import get_stored_result, save_result
 from app.store.network_labels import list_collection_names, list_person_labels
 from app.store.summary import get_data_version
@@ -51,6 +51,7 @@ __all__ = [
     "get_or_compute_many",
     "is_expensive",
     "options_key",
+    "peek_outcome",
     "slice_key",
 ]
 
@@ -134,7 +135,7 @@ def options_key(options: dict[str, Any]) -> str:
 
 def get_or_compute(
     database: Database, *, measure: str, slice: Slice, options: dict[str, Any] | None = None,  # noqa: A002
-    visibility: str = VISIBILITY_ALL, recompute: bool = False,
+    visibility: str = VISIBILITY_ALL, recompute: bool = False, progress: Callable[[float], None] | None = None,
 ) -> Outcome:
     """Return the stored result of the request, or compute, store and return it.
 
@@ -143,16 +144,31 @@ def get_or_compute(
     MeasureError for an unknown measure or option, SliceError for a slice key that names nothing.
     """
     return get_or_compute_many(database, requests=[(measure, options or {})], slice=slice, visibility=visibility,
-                               recompute=recompute)[0]
+                               recompute=recompute, progress=progress)[0]
+
+
+def peek_outcome(
+    database: Database, *, measure: str, slice: Slice, options: dict[str, Any] | None = None,  # noqa: A002
+    visibility: str = VISIBILITY_ALL,
+) -> Outcome | None:
+    """Return the stored result that :func:`get_or_compute` would serve without computing, or None."""
+    key = {"measure": measure, "options": options_key(options or {}), "slice_key": slice_key(slice), "visibility": visibility}
+    with database.read() as session:
+        current = get_data_version(session=session)
+        stored = get_stored_result(session=session, **key)
+    if stored is None or not (stored.data_version == current or is_expensive(measure, stored.payload.get("n"))):
+        return None
+    return Outcome(measure, stored.payload, stored.data_version, current, stored.computed_at, stored.seconds, True)
 
 
 def get_or_compute_many(
     database: Database, *, requests: list[tuple[str, dict[str, Any]]], slice: Slice,  # noqa: A002
-    visibility: str = VISIBILITY_ALL, recompute: bool = False,
+    visibility: str = VISIBILITY_ALL, recompute: bool = False, progress: Callable[[float], None] | None = None,
 ) -> list[Outcome]:
     """Return the outcome of each (measure, options) on one slice, as :func:`get_or_compute` does.
 
-    The slice's graph is built once for all the measures that need computing.
+    The slice's graph is built once for all the measures that need computing; ``progress`` is
+    told the share done (the graph counts for a fifth).
     """
     for measure, _options in requests:
         if measure not in MEASURES and measure not in FAMILIES:
@@ -175,10 +191,14 @@ def get_or_compute_many(
     with database.read() as session:
         version = get_data_version(session=session)  # read in the same transaction as the evidence
         graph = SliceGraph.build(session, slice)
+        if progress:
+            progress(0.2)
         for i in pending:
             started = time.perf_counter()
             payload = compute_result(session, graph, measure=requests[i][0], options=dict(requests[i][1]))
             computed[i] = (payload, time.perf_counter() - started + (graph.seconds if i == pending[0] else 0.0))
+            if progress:
+                progress(0.2 + 0.8 * len(computed) / len(pending))
     computed_at = datetime.now(UTC).replace(tzinfo=None)
     with database.write() as session:
         for i, (payload, seconds) in computed.items():
@@ -197,26 +217,27 @@ class SliceGraph:
     slice: Slice
     G: nx.Graph
     key_of: dict[int, str]  # person id -> key
-    collection_of: dict[int, int | None]  # attestation id -> collection id (None: a printed source)
+    resolved: ResolvedSlice
+    attestations: dict[int, int]  # relation id -> its attestations in the slice
     seconds: float  # time taken to read the evidence and build the graph
 
     @classmethod
     def build(cls, session: Session, slice_: Slice) -> SliceGraph:
-        """Read the slice's evidence and build its graph (SliceError for an unknown key)."""
+        """Read the slice's relations, counted in SQL, and build its graph (SliceError for an unknown key)."""
         started = time.perf_counter()
         resolved = resolve_slice(session, slice_)
-        rows = relation_evidence(session, resolved)
-        G = graph_from_evidence(session, resolved, rows)
+        totals = slice_totals(session, resolved)
+        G = graph_from_totals(session, resolved, totals)
         labels = list_person_labels(session=session, ids=list(G))
-        return cls(slice_, G, {node: labels[node].key for node in G},
-                   {row.attestation_id: row.collection_id for row in rows}, time.perf_counter() - started)
+        return cls(slice_, G, {node: labels[node].key for node in G}, resolved,
+                   {row.relation_id: row.attestations for row in totals}, time.perf_counter() - started)
 
 
 def compute_result(session: Session, graph: SliceGraph, *, measure: str, options: dict[str, Any]) -> dict[str, Any]:
     """Return the result of one measure on the slice's graph, as JSON data with persons by key."""
     G, slice_, key_of = graph.G, graph.slice, graph.key_of
     if measure == "summary":
-        return _summary(session, G, slice_, key_of, graph.collection_of)
+        return _summary(session, graph)
     if measure == "components":
         return _components(G, slice_, key_of)
     if measure == "cut-points":
@@ -248,14 +269,16 @@ def _centrality(G: nx.Graph, measure: str, slice_: Slice, key_of: dict, options:
             "sampling": sampling, "rows": rows}
 
 
-def _summary(session: Session, G: nx.Graph, slice_: Slice, key_of: dict, collection_of: dict[int, int | None]) -> dict[str, Any]:
-    in_graph = {a for _, _, ids in G.edges(data="attestation_ids") for a in ids or ()}
-    per_collection = Counter(collection_of[a] for a in in_graph)
+def _summary(session: Session, graph: SliceGraph) -> dict[str, Any]:
+    G, slice_ = graph.G, graph.slice
+    in_graph = {r for _, _, ids in G.edges(data="relation_ids") for r in ids or ()}
+    per_collection = Counter(collection_counts(session, graph.resolved, in_graph))
     printed = per_collection.pop(None, 0)
     names = list_collection_names(session=session, ids=list(per_collection))
     counts = {names[c]: count for c, count in per_collection.items()}
     summary = summarize(G, node_set=slice_.nodes, collection_counts=counts)
     payload = asdict(summary)
+    payload["attestations"] = sum(graph.attestations[r] for r in in_graph)
     for field in ("degree_distribution", "in_degree_distribution", "out_degree_distribution"):
         if payload[field] is not None:
             payload[field] = [[degree, persons] for degree, persons in payload[field].items()]

@@ -17,7 +17,7 @@ from sqlalchemy.orm import Session
 
 from app.models import StoredMeasure
 
-__all__ = ["StoredResult", "count_stored_results", "get_stored_result", "save_result"]
+__all__ = ["StoredResult", "count_stored_results", "get_slice_size", "get_stored_result", "save_result"]
 
 
 @dataclass(frozen=True)
@@ -98,3 +98,21 @@ def _stored(row: StoredMeasure, payload: dict[str, Any] | None = None) -> Stored
         data_version=row.data_version, payload=payload if payload is not None else json.loads(row.result_json),
         computed_at=row.computed_at, seconds=row.seconds,
     )
+
+
+def get_slice_size(*, session: Session, slice_key: str, visibility: str) -> int:
+    """Return the persons of a slice as its latest stored result says, else every person of the dataset.
+
+    An upper bound good enough to decide whether a heavy measure runs inline or in the background.
+    """
+    from app.models import Person
+
+    latest = session.scalars(
+        select(StoredMeasure.result_json).where(StoredMeasure.slice_key == slice_key, StoredMeasure.visibility == visibility)
+        .order_by(StoredMeasure.computed_at.desc()).limit(1)
+    ).first()
+    if latest is not None:
+        n = json.loads(latest).get("n")
+        if isinstance(n, int):
+            return n
+    return session.scalar(select(func.count()).select_from(Person)) or 0

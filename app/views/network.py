@@ -28,13 +28,16 @@ from app.network.measures.cliques import CLIQUE_LIMIT
 from app.network.measures.communities import METHODS
 from app.network.measures.conventions import population_sentence
 from app.network.measures.results import MeasureError
-from app.network.results import SAMPLED, Outcome, get_or_compute_many
+from app.network.jobs import INLINE_UP_TO, Pending, Worker, needs_worker, outcome_or_job
+from app.network.results import SAMPLED, Outcome, get_or_compute_many, peek_outcome
 from app.network.slice import Slice
+from app.store.jobs import JobInfo, get_job_by_id
 from app.store.network_labels import get_person_label, list_person_labels_by_key
 from app.store.persons import PersonRef
 from app.views.charts import degree_chart
-from app.views.common import BadParameter, SessionDep, SliceDep, render, templates, urls_for
+from app.views.common import BadParameter, SessionDep, SliceDep, Urls, render, templates, urls_for
 from app.views.network_models import (
+    BackgroundJob,
     BridgeRow,
     CentralityPage,
     CentralityRow,
@@ -72,6 +75,8 @@ __all__ = [
     "components_view",
     "cut_points_view",
     "figure",
+    "job_status_view",
+    "job_view",
     "network_index",
     "person_measures_view",
     "router",
@@ -162,14 +167,37 @@ def summary_view(*, session: Session, database: Database, slice: Slice, recomput
 def centrality_view(
     *, session: Session, database: Database, slice: Slice, measure: str | None = None, sort: str | None = None,  # noqa: A002
     order: str | None = None, page: str | None = None, exact: str | None = None, recompute: bool = False,
-    all_rows: bool = False,
+    all_rows: bool = False, worker: Worker | None = None, requested_by: str = "anonymous",
+    inline_up_to: int = INLINE_UP_TO,
 ) -> CentralityPage:
-    """Return the ranked table of one centrality on ``slice`` (``all_rows``: every row, for CSV)."""
+    """Return the ranked table of one centrality on ``slice`` (``all_rows``: every row, for CSV).
+
+    On a large slice an exact path measure is left to the background worker: the page shows the
+    sampled estimate meanwhile (betweenness) or only the job's state (the others).
+    """
     measure = _measure(measure, slice)
     sort, order = _sort(sort, order)
     wants_exact = _yes_no("exact", exact)
     options = {"exact": True} if wants_exact and measure in SAMPLED else {}
-    outcome = _outcome(database, measure, slice, options, recompute)
+    job: BackgroundJob | None = None
+    if recompute:
+        outcome = _outcome(database, measure, slice, options, recompute)
+    else:
+        found = _background(database, worker, measure, options, slice, requested_by, inline_up_to)
+        if isinstance(found, Pending) and measure in SAMPLED:  # the estimate meanwhile
+            job, outcome = _job_view(found, measure), _outcome(database, measure, slice, {}, False)
+        elif isinstance(found, Pending):
+            job, outcome = _job_view(found, measure), _pending_outcome(database, measure, slice)
+        else:
+            outcome = found
+        if not options and measure in SAMPLED and outcome.payload.get("sampling"):
+            # An estimate: the exact figures replace it once stored; on a large slice they are queued at once.
+            exact_stored = peek_outcome(database, measure=measure, slice=slice, options={"exact": True})
+            if exact_stored is not None:
+                outcome = exact_stored
+            elif needs_worker(measure, {"exact": True}, outcome.payload["n"], inline_up_to):
+                exact_found = _background(database, worker, measure, {"exact": True}, slice, requested_by, inline_up_to)
+                job = _job_view(exact_found, measure) if isinstance(exact_found, Pending) else None
     p = outcome.payload
     payload_rows = p["rows"]
     names: dict[str, PersonRef] = {}
@@ -202,7 +230,7 @@ def centrality_view(
         rows=rows, definition=MEASURE_INFO[measure], measures=_choices(slice), sort=sort, order=order, page=number,
         pages=pages, total=total, engine=p["engine"], estimate=sampling is not None,
         samples=sampling["samples"] if sampling else None, sampling_statement=sampling["statement"] if sampling else None,
-        exact=wants_exact, context=_context(session, "centrality", slice, outcome, parameters, ["ranking"]),
+        exact=wants_exact, context=_context(session, "centrality", slice, outcome, parameters, ["ranking"]), job=job,
     )  # fmt: skip
 
 
@@ -388,6 +416,49 @@ def _outcomes(database: Database, requests: list[tuple[str, dict[str, Any]]], sl
         return get_or_compute_many(database, requests=requests, slice=slice_, recompute=recompute)
     except MeasureError as error:
         raise BadParameter(error.parameter, error.value, error.accepted) from error
+
+
+def _worker_of(request: Request) -> dict[str, Any]:
+    """Return the server's background worker, the requester and the inline threshold, for a view."""
+    state = request.app.state
+    return {"worker": getattr(state, "worker", None), "requested_by": request.client.host if request.client else "anonymous",
+            "inline_up_to": getattr(state, "inline_up_to", INLINE_UP_TO)}
+
+
+def _background(database: Database, worker: Worker | None, measure: str, options: dict[str, Any], slice_: Slice,
+                requested_by: str, inline_up_to: int) -> Outcome | Pending:
+    try:
+        return outcome_or_job(database, worker, measure=measure, options=options, slice=slice_,
+                              requested_by=requested_by, inline_up_to=inline_up_to)
+    except MeasureError as error:
+        raise BadParameter(error.parameter, error.value, error.accepted) from error
+
+
+def _pending_outcome(database: Database, measure: str, slice_: Slice) -> Outcome:
+    """Return an empty ranking for a measure still computing; n and freshness come from degree (cheap)."""
+    degree = _outcome(database, "degree", slice_, {}, False)
+    payload = {"n": degree.payload["n"], "directed": degree.payload["directed"], "engine": "igraph",
+               "conventions": "The figures are being computed in the background; they appear here when they are ready.",
+               "sampling": None, "rows": []}
+    return Outcome(measure, payload, degree.computed_at_version, degree.current_version, degree.computed_at, 0.0, False)
+
+
+def job_view(job: JobInfo | None, measure: str, refused: str | None = None) -> BackgroundJob:
+    """Return what a page shows of a background job."""
+    if job is None:
+        return BackgroundJob(None, "refused", 0.0, measure, refused or "The job could not be queued.", None, None)
+    label = MEASURE_INFO[job.measure].label if job.measure in MEASURE_INFO else job.measure
+    message = {
+        "queued": f"{label}: waiting for the background worker.",
+        "running": f"{label}: computing in the background, {job.progress:.0%} done.",
+        "done": f"{label}: ready.",
+        "failed": f"{label}: the computation failed.",
+    }[job.state]
+    return BackgroundJob(job.id, job.state, job.progress, job.measure, message, job.error, Urls().network_job(job.id))
+
+
+def _job_view(pending: Pending, measure: str) -> BackgroundJob:
+    return job_view(pending.job, measure, pending.refused)
 
 
 def _context(session: Session, view: str, slice_: Slice, outcome: Outcome, parameters: list[tuple[str, str]],
@@ -580,7 +651,7 @@ def centrality_page(
     format: str | None = _FORMAT, table: str | None = _TABLE,  # noqa: A002
 ) -> Response:
     view = centrality_view(session=session, database=database, slice=slice, measure=measure, sort=sort, order=order,
-                           page=page, exact=exact, all_rows=bool(format))
+                           page=page, exact=exact, all_rows=bool(format), **_worker_of(request))
     return _respond(request, view, template="network_centrality.html", partial="_network_centrality.html", fmt=format,
                     table=table, filename=view.measure)
 
@@ -727,6 +798,36 @@ _PERSON_MEASURES = ("One person's value and rank for every centrality the slice 
                     "directed slice), out of how many persons are ranked, each from the same stored result as "
                     "`/network/centrality`. A person outside the slice's node set gets a sentence instead. An unknown "
                     "person is a 404." + _SLICE_NOTE)
+
+
+_JOB = ("The state of a heavy measure computed by the background worker: queued, running (with the share done), "
+        "done or failed (with the error). A page waiting for the result polls this every 2 seconds and reloads "
+        "itself when the job is done; an unknown job number gives 404.")
+
+
+def job_status_view(*, session: Session, job_id: int) -> BackgroundJob:
+    """Return the state of one background job (HTTPException 404 when unknown)."""
+    job = get_job_by_id(session=session, job_id=job_id)
+    if job is None:
+        raise HTTPException(404, f"There is no background job number {job_id}.")
+    return job_view(job, job.measure)
+
+
+@router.get("/network/jobs/{job_id}", response_class=HTMLResponse, summary="A background job's state (page fragment)",
+            description=_JOB + " JSON: `/api/network/jobs/{job_id}`.")
+def job_status_page(request: Request, job_id: int, session: SessionDep) -> Response:
+    view = job_status_view(session=session, job_id=job_id)
+    response = render(request, view, template="network_job.html", partial="_network_job.html")
+    if view.state == "done" and request.headers.get("HX-Request"):
+        response.headers["HX-Refresh"] = "true"  # the waiting page reloads and finds the stored result
+    return response
+
+
+@router.get("/api/network/jobs/{job_id}", response_model=BackgroundJob, summary="A background job's state (JSON)",
+            description=_JOB + " The page fragment: `/network/jobs/{job_id}`.")
+def job_status_api(request: Request, job_id: int, session: SessionDep) -> Response:
+    return render(request, job_status_view(session=session, job_id=job_id), template="network_job.html",
+                  partial="_network_job.html")
 
 
 @router.get("/persons/{key}/measures", response_class=HTMLResponse, summary="One person's centralities (page)",

@@ -14,6 +14,7 @@ from app.store.persons import PersonRef
 from app.views.slicing import SliceControls
 
 __all__ = [
+    "BackgroundJob",
     "BridgeRow",
     "CentralityPage",
     "CentralityRow",
@@ -264,6 +265,28 @@ class MeasureChoice:
 
 
 @dataclass(frozen=True)
+class BackgroundJob:
+    """A heavy measure computed by the background worker, as a page shows it while it waits."""
+
+    __pydantic_config__ = {"use_attribute_docstrings": True}
+
+    id: int | None
+    """The job's number (None when it could not be queued)."""
+    state: str
+    """queued, running, done, failed, or refused (the requester's queue is full)."""
+    progress: float
+    """Share done, 0 to 1."""
+    measure: str
+    """The measure being computed."""
+    message: str
+    """What is happening, in plain words."""
+    error: str | None
+    """Why it failed, for a failed job."""
+    status_url: str | None
+    """Where its status is polled."""
+
+
+@dataclass(frozen=True)
 class CentralityPage:
     """Persons ranked by one centrality."""
 
@@ -305,6 +328,8 @@ class CentralityPage:
     """True when exact figures were asked for (``exact=yes``) on a slice large enough to be sampled."""
     context: PageContext
     """Slice, node set, freshness and the slice form."""
+    job: BackgroundJob | None = None
+    """The background job computing the exact figures, while it runs or when it failed."""
 
 
 # --- components, cut points, cliques, communities --------------------------------------------

@@ -44,7 +44,9 @@ __all__ = [
     "leiden",
     "louvain",
     "path_lengths",
+    "sampled_path_lengths",
     "to_igraph",
+    "transitivity",
 ]
 
 _RNG_LOCK = threading.Lock()
@@ -217,6 +219,43 @@ def path_lengths(G: nx.Graph) -> tuple[int, float | None]:
     if g.vcount() < 2:
         return 0, None
     return int(g.diameter(directed=False)), float(g.average_path_length(directed=False))
+
+
+def sampled_path_lengths(G: nx.Graph, *, sources: int, seed: int = 0) -> tuple[int, float | None]:
+    """Return a lower bound of the diameter and an estimate of the average path length of a connected G.
+
+    Distances are counted from ``sources`` persons drawn at random (seeded) instead of from
+    everyone: the average is that of all their distances, the diameter the longest of them,
+    lengthened by one more search from the farthest person found (never above the true one).
+    """
+    g, _ = to_igraph(G)
+    n = g.vcount()
+    if n < 2:
+        return 0, None
+    drawn = random.Random(seed).sample(range(n), min(sources, n))
+    rows = np.asarray(g.distances(source=drawn, mode="all"), dtype=float)
+    average = float(rows.sum() / (len(drawn) * (n - 1)))
+    far = int(np.unravel_index(int(rows.argmax()), rows.shape)[1])
+    diameter = max(int(rows.max()), int(max(g.distances(source=[far], mode="all")[0])))
+    return diameter, average
+
+
+def transitivity(G: nx.Graph) -> tuple[float, float]:
+    """Return transitivity and average clustering of an undirected simple G, as networkx's functions.
+
+    The first is networkx's ``transitivity`` (0 without connected triples), the second its
+    ``average_clustering`` over every person (0 for those with fewer than two ties).
+
+    Examples
+    --------
+    >>> G = nx.Graph([(0, 1), (1, 2), (2, 0), (2, 3)])
+    >>> [round(value, 12) for value in transitivity(G)] == [round(nx.transitivity(G), 12), round(nx.average_clustering(G), 12)]
+    True
+    """
+    if G.number_of_nodes() == 0:
+        return 0.0, 0.0
+    g, _ = to_igraph(G)
+    return _zero_if_nan(g.transitivity_undirected()), _zero_if_nan(g.transitivity_avglocal_undirected(mode="zero"))
 
 
 @contextmanager

@@ -33,6 +33,10 @@ FEW_TIES = 50
 """Below this many ties a slice is called small."""
 ONE_COLLECTION_SHARE = 0.5
 """Above this share of the attestations from one collection, the summary warns."""
+EXACT_PATHS_UP_TO = 3000
+"""Above this many persons in the largest component, path lengths are estimated from sampled sources."""
+PATH_SOURCES = 200
+"""Number of sampled sources of that estimate."""
 
 
 @dataclass(frozen=True)
@@ -77,15 +81,20 @@ class NetworkSummary:
     """Plain sentences on what limits the figures."""
     conventions: str
     """Plain sentences: node set and n, loops, views, the component used for path lengths."""
+    path_sources: int | None = None
+    """None when path lengths are exact, else the number of sampled sources they were estimated from."""
 
 
 def summarize(
-    G: nx.Graph, *, node_set: str | None = None, collection_counts: Mapping[str, int] | None = None
+    G: nx.Graph, *, node_set: str | None = None, collection_counts: Mapping[str, int] | None = None,
+    exact_paths: bool | None = None,
 ) -> NetworkSummary:
     """Return the summary of a slice's graph, with warnings.
 
     ``collection_counts`` gives the number of attestations per collection in the slice (by
-    name); when one collection holds more than half of them, a warning says so.
+    name); when one collection holds more than half of them, a warning says so. Path lengths
+    are exact up to ``EXACT_PATHS_UP_TO`` persons in the largest component and estimated from
+    ``PATH_SOURCES`` sampled sources above, unless ``exact_paths`` says otherwise.
 
     References
     ----------
@@ -108,7 +117,13 @@ def summarize(
     possible = n * (n - 1) if directed else n * (n - 1) / 2
     parts = sorted((sorted(c, key=node_key) for c in nx.connected_components(undirected)), key=lambda c: (-len(c), node_key(c[0])))
     largest = parts[0] if parts else []
-    diameter, average = kernels.path_lengths(induced(undirected, set(largest))) if largest else (None, None)
+    exact = exact_paths if exact_paths is not None else len(largest) <= EXACT_PATHS_UP_TO
+    diameter, average = None, None
+    if largest:
+        component = induced(undirected, set(largest)) if len(parts) > 1 else undirected
+        diameter, average = (kernels.path_lengths(component) if exact
+                             else kernels.sampled_path_lengths(component, sources=PATH_SOURCES, seed=0))
+    transitivity, clustering = kernels.transitivity(undirected)
     warnings = [w for w in (small_slice_warning(n, ties), collection_warning(collection_counts or {})) if w]
     path_part = (f"Diameter and average path length are those of the largest component ({len(largest)} of {n} persons"
                  + (", the first of several of that size" if len(parts) > 1 and len(parts[1]) == len(largest) else "")
@@ -119,18 +134,22 @@ def summarize(
         "Transitivity, clustering, components, path lengths and degrees use the undirected view"
         + (" (two opposite arcs are one tie)." if directed else "."),
         path_part,
+        "" if exact or not largest else (
+            f"Both are estimated from the distances of {min(PATH_SOURCES, len(largest))} persons drawn at random "
+            "(seed 0) to everyone in that component; the diameter shown is the longest distance found, "
+            "so the true one may be larger."),
     ] if s)
     return NetworkSummary(
         persons=n, ties=ties, loops=nx.number_of_selfloops(G), attestations=_attestations(G), directed=directed,
         density=ties / possible if n > 1 else None,
         reciprocity=nx.overall_reciprocity(plain) if directed and ties else None,
-        transitivity=nx.transitivity(undirected), average_clustering=nx.average_clustering(undirected) if n else 0.0,
+        transitivity=transitivity, average_clustering=clustering,
         components=len(parts), largest_component=len(largest), largest_share=len(largest) / n if n else None,
         diameter=diameter, average_path_length=average,
         degree_distribution=_distribution(d for _, d in undirected.degree()),
         in_degree_distribution=_distribution(d for _, d in plain.in_degree()) if directed else None,
         out_degree_distribution=_distribution(d for _, d in plain.out_degree()) if directed else None,
-        warnings=warnings, conventions=conventions,
+        warnings=warnings, conventions=conventions, path_sources=None if exact or not largest else min(PATH_SOURCES, len(largest)),
     )
 
 

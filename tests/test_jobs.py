@@ -1,0 +1,155 @@
+"""Heavy measures in the background worker: one job per result, a cap per requester, another
+process computing, failures shown, polling, and jobs left running by a killed server requeued.
+
+The Florentine families' marriages (Padgett & Ansell 1993, as shipped with networkx) stand in
+for a large slice: the inline threshold is lowered to 2 persons so that closeness goes to the worker.
+"""
+
+from __future__ import annotations
+
+import os
+import time
+from pathlib import Path
+
+import networkx as nx
+import pytest
+from bs4 import BeautifulSoup
+from fastapi.testclient import TestClient
+from sqlalchemy import func, select
+
+from app.config import Settings
+from app.db import Database
+from app.exchange.workbook import import_workbook
+from app.main import create_app
+from app.models import Job
+from app.network import jobs as network_jobs
+from app.network import results as network_results
+from app.store.jobs import claim_next_job, request_job
+from tests.test_network_pages import FLORENTINE, family_key, florentine_tables
+from tests.workbooks import write_workbook
+
+UNDIRECTED = {"direction": "undirected"}
+
+
+@pytest.fixture
+def florentine_db(tmp_path: Path, database: Database) -> Database:
+    import_workbook(database, write_workbook(tmp_path / "florentine", florentine_tables()), size_limit=10**9)
+    return database
+
+
+def small_threshold_app(settings: Settings):
+    app = create_app(settings)
+    app.state.inline_up_to = 2  # the 15 families count as a large slice here
+    return app
+
+
+def jobs_in(database: Database) -> list[Job]:
+    with database.read() as session:
+        return list(session.scalars(select(Job).order_by(Job.id)))
+
+
+def centrality(client: TestClient, measure: str, **extra: str) -> dict:
+    response = client.get("/api/network/centrality", params={"measure": measure, **UNDIRECTED, **extra})
+    assert response.status_code == 200, response.text
+    return response.json()
+
+
+def wait_for(client: TestClient, job_id: int, seconds: float = 60.0) -> dict:
+    deadline = time.monotonic() + seconds
+    while time.monotonic() < deadline:
+        status = client.get(f"/api/network/jobs/{job_id}").json()
+        if status["state"] in ("done", "failed"):
+            return status
+        time.sleep(0.2)
+    raise AssertionError(f"job {job_id} did not finish in {seconds} s")
+
+
+def test_duplicate_requests_make_one_job_and_the_cap_refuses_a_fourth(florentine_db: Database, settings: Settings):
+    client = TestClient(small_threshold_app(settings))  # no lifespan: nothing runs the jobs
+    first = centrality(client, "closeness")
+    assert first["job"]["state"] == "queued" and first["rows"] == []
+    again = centrality(client, "closeness")  # a reload joins the same job
+    assert again["job"]["id"] == first["job"]["id"]
+    assert len(jobs_in(florentine_db)) == 1
+    for measure in ("harmonic", "weighted_closeness"):
+        assert centrality(client, measure)["job"]["state"] == "queued"
+    refused = centrality(client, "weighted_betweenness", exact="yes")
+    assert refused["job"]["state"] == "refused" and refused["job"]["id"] is None
+    assert "at most 3" in refused["job"]["message"]
+    assert len(jobs_in(florentine_db)) == 3
+    page = BeautifulSoup(client.get("/network/centrality", params={"measure": "weighted_betweenness", "exact": "yes",
+                                                                   **UNDIRECTED}).text, "lxml")
+    assert "at most 3" in page.select_one("#job-status").get_text(" ", strip=True)
+
+
+def test_polling_shows_the_computing_state_then_the_result(florentine_db: Database, settings: Settings):
+    client = TestClient(small_threshold_app(settings))
+    job_id = centrality(client, "closeness")["job"]["id"]
+    waiting = client.get(f"/network/jobs/{job_id}", headers={"HX-Request": "true"})
+    box = BeautifulSoup(waiting.text, "lxml").select_one("#job-status")
+    assert box["data-state"] == "queued" and box["hx-get"] == f"/network/jobs/{job_id}" and box["hx-trigger"] == "every 2s"
+    assert "HX-Refresh" not in waiting.headers
+    assert network_jobs.run_next_job(florentine_db).id == job_id  # the worker's step, called directly
+    done = client.get(f"/network/jobs/{job_id}", headers={"HX-Request": "true"})
+    assert done.headers["HX-Refresh"] == "true"
+    assert BeautifulSoup(done.text, "lxml").select_one("#job-status")["data-state"] == "done"
+    assert not BeautifulSoup(done.text, "lxml").select_one("#job-status").has_attr("hx-get")
+    body = centrality(client, "closeness")
+    assert body["job"] is None and len(body["rows"]) == 15
+    # Wasserman-Faust closeness, networkx as the reference
+    expected = nx.closeness_centrality(FLORENTINE, wf_improved=True)
+    for name, value in expected.items():
+        row = next(r for r in body["rows"] if r["key"] == family_key(name))
+        assert row["value"] == pytest.approx(value, abs=1e-12)
+    assert len(jobs_in(florentine_db)) == 1  # the result is stored: no new job
+    assert client.get("/api/network/jobs/999").status_code == 404
+
+
+def test_a_failing_job_is_marked_failed_with_its_error(florentine_db: Database, settings: Settings):
+    client = TestClient(small_threshold_app(settings))
+    with florentine_db.write() as session:  # a job for a measure that does not exist
+        job_id = request_job(session=session, measure="no-such-measure", options="{}", slice_key="direction=undirected",
+                             visibility="all", data_version=0, requested_by="test", cap=3).job.id
+    network_jobs.run_next_job(florentine_db)
+    status = client.get(f"/api/network/jobs/{job_id}").json()
+    assert status["state"] == "failed" and status["error"]
+    page = BeautifulSoup(client.get(f"/network/jobs/{job_id}").text, "lxml")
+    assert status["error"] in page.select_one(".job-error").get_text(" ", strip=True)
+
+
+def test_a_job_runs_in_another_process_and_the_page_then_shows_the_exact_result(
+    florentine_db: Database, settings: Settings, monkeypatch: pytest.MonkeyPatch,
+):
+    monkeypatch.setattr(network_results, "SAMPLE_ABOVE", 2)  # the estimate is shown meanwhile
+    monkeypatch.setattr(network_results, "SAMPLES", 3)
+    with TestClient(small_threshold_app(settings)) as client:
+        first = centrality(client, "betweenness")
+        assert first["estimate"] is True and first["job"]["state"] in ("queued", "running")
+        worker = client.app.state.worker._process
+        assert worker is not None and worker.pid != os.getpid()
+        assert wait_for(client, first["job"]["id"])["state"] == "done"
+        exact = centrality(client, "betweenness")
+        assert exact["estimate"] is False and exact["job"] is None
+        medici = next(r for r in exact["rows"] if r["key"] == "fam-medici")
+        assert medici["raw"] == pytest.approx(47.5)  # networkx betweenness_centrality(normalized=False) gives 47.5
+    assert len(jobs_in(florentine_db)) == 1
+
+
+def test_a_job_left_running_by_a_killed_server_is_requeued_and_run(florentine_db: Database, settings: Settings):
+    client = TestClient(small_threshold_app(settings))
+    job_id = centrality(client, "harmonic")["job"]["id"]
+    with florentine_db.write() as session:
+        assert claim_next_job(session=session).id == job_id  # "running", and then the server died
+    with TestClient(small_threshold_app(settings)) as restarted:
+        assert wait_for(restarted, job_id)["state"] == "done"
+        assert len(centrality(restarted, "harmonic")["rows"]) == 15
+    with florentine_db.read() as session:
+        assert session.scalar(select(func.count()).select_from(Job)) == 1
+
+
+def test_needs_worker_only_for_heavy_measures_on_large_slices():
+    assert network_jobs.needs_worker("closeness", {}, 5000, 3000)
+    assert not network_jobs.needs_worker("closeness", {}, 3000, 3000)
+    assert not network_jobs.needs_worker("pagerank", {}, 10**6, 3000)
+    assert not network_jobs.needs_worker("betweenness", {}, 5000, 3000)  # the estimate is inline
+    assert network_jobs.needs_worker("betweenness", {"exact": True}, 5000, 3000)

@@ -1,0 +1,62 @@
+"""The fast paths of large slices against networkx: igraph's transitivity and clustering, the
+sampled path lengths, and the graph built from per-relation counts."""
+
+from __future__ import annotations
+
+import networkx as nx
+import pytest
+
+from app.network.measures import kernels
+from app.network.measures.summary import summarize
+from tests.evidence_world import world, world_file  # noqa: F401 - fixtures
+
+
+@pytest.mark.parametrize("G", [
+    nx.karate_club_graph(),  # Zachary 1977, as shipped with networkx
+    nx.florentine_families_graph(),  # Padgett & Ansell 1993, as shipped with networkx
+    nx.disjoint_union(nx.path_graph(4), nx.star_graph(3)),
+    nx.gnm_random_graph(300, 900, seed=3),
+    nx.empty_graph(3),
+])
+def test_igraph_transitivity_and_clustering_equal_networkx(G: nx.Graph):
+    transitivity, clustering = kernels.transitivity(G)
+    assert transitivity == pytest.approx(nx.transitivity(G), abs=1e-12)
+    assert clustering == pytest.approx(nx.average_clustering(G), abs=1e-12)
+
+
+def test_sampled_path_lengths_bound_the_diameter_and_estimate_the_average():
+    G = nx.connected_watts_strogatz_graph(2000, 6, 0.1, seed=5)
+    exact_diameter, exact_average = nx.diameter(G), nx.average_shortest_path_length(G)
+    diameter, average = kernels.sampled_path_lengths(G, sources=100, seed=0)
+    assert diameter <= exact_diameter and diameter >= exact_diameter - 1
+    assert average == pytest.approx(exact_average, rel=0.03)
+    everyone = kernels.sampled_path_lengths(G, sources=len(G), seed=0)
+    assert everyone == (exact_diameter, pytest.approx(exact_average, rel=1e-12))
+
+
+def test_the_summary_says_when_path_lengths_are_estimated():
+    G = nx.connected_watts_strogatz_graph(500, 4, 0.1, seed=1)
+    exact = summarize(G)
+    sampled = summarize(G, exact_paths=False)
+    assert exact.path_sources is None and "estimated" not in exact.conventions
+    assert sampled.path_sources == 200 and "estimated from the distances of 200 persons" in sampled.conventions
+    assert sampled.diameter <= exact.diameter
+
+
+@pytest.mark.parametrize("query", [
+    {}, {"direction": "undirected"}, {"direction": "reciprocal"}, {"loops": "keep", "weight": "attestations"},
+    {"nodes": "all", "weight": "none"}, {"certainty": "certain"},
+])
+def test_the_graph_from_counts_equals_the_graph_from_every_attestation(world, query):  # noqa: F811
+    from app.network.slice import Slice, graph_from_evidence, graph_from_totals, relation_evidence, resolve_slice, slice_totals
+
+    with world.read() as session:
+        resolved = resolve_slice(session, Slice.from_query({k: [v] for k, v in query.items()}))
+        full = graph_from_evidence(session, resolved, relation_evidence(session, resolved))
+        light = graph_from_totals(session, resolved, slice_totals(session, resolved))
+    assert set(light) == set(full) and set(light.edges) == set(full.edges) and light.is_directed() == full.is_directed()
+    assert full.number_of_edges() > 0
+    for u, v, data in full.edges(data=True):
+        got = light[u][v]
+        assert (got["weight"], got["attestations"], got["documents"], got["relation_ids"], got["kinds"]) == (
+            data["weight"], data["attestations"], data["documents"], data["relation_ids"], data["kinds"])

@@ -27,6 +27,7 @@ from app.views import persons as persons_views
 from app.views import places as places_views
 from app.views import sources as sources_views
 from app.views import ties as ties_views
+from app.views import twomode as twomode_views
 from app.views.common import STATIC_DIR, render_error
 
 __all__ = ["app_from_env", "create_app"]
@@ -72,10 +73,12 @@ def create_app(settings: Settings) -> FastAPI:
     app.include_router(ties_views.router)
     app.include_router(ego_views.router)
     app.include_router(network_views.router)
+    app.include_router(twomode_views.router)
 
     app.add_exception_handler(StarletteHTTPException, _http_error)
     app.add_exception_handler(RequestValidationError, _invalid_request)
     app.add_exception_handler(SliceError, _bad_slice)
+    app.add_exception_handler(OverflowError, _number_too_large)
     return app
 
 
@@ -94,6 +97,11 @@ def _http_error(request: Request, exc: StarletteHTTPException) -> Response:
             detail = f"{request.url.path} does not answer {request.method} requests."
     error = "bad parameter" if exc.status_code == 400 else phrase.lower()
     return render_error(request, exc.status_code, error, str(detail), headers=exc.headers)
+
+
+def _number_too_large(request: Request, exc: OverflowError) -> Response:
+    """A number in the path or query string too large for the database to look up."""
+    return render_error(request, 400, "bad parameter", f"a number in {request.url.path} is too large to look up")
 
 
 def _bad_slice(request: Request, exc: SliceError) -> Response:

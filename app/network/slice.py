@@ -51,7 +51,7 @@ CHOICES: dict[str, tuple[str, ...]] = {
     "loops": ("drop", "keep"),
     "direction": ("recorded", "undirected", "reciprocal"),
     "weight": ("documents", "attestations", "none"),
-    "mode": ("relations",),  # co-membership and both come with the two-mode views
+    "mode": ("relations", "co-membership", "both"),
     "overlap": ("any", "required"),
 }
 REPEATABLE = ("kind", "evidence", "keep_collection", "omit_collection", "keep_repository", "omit_repository")
@@ -181,6 +181,8 @@ class Slice:
             parts.append("unidentified persons dropped")
         parts.append({"recorded": "direction as recorded", "undirected": "undirected",
                       "reciprocal": "reciprocated ties only"}[self.direction])
+        if self.mode != "relations":
+            parts.append({"co-membership": "ties by shared groups", "both": "relations and ties by shared groups"}[self.mode])
         return "; ".join(parts)
 
     def with_(self, **changes: Any) -> Slice:

@@ -9,7 +9,7 @@ from sqlalchemy.orm import Session, joinedload
 
 from app.models import Collection, Source
 
-__all__ = ["SourceCitation", "get_citations", "source_citation"]
+__all__ = ["SourceCitation", "get_citations", "source_citation", "web_address"]
 
 
 @dataclass(frozen=True)
@@ -49,7 +49,9 @@ class SourceCitation:
     copy_of_key: str | None
     """Key of the original, when this source is a copy."""
     url: str | None
-    """Link to a digital copy or catalogue entry."""
+    """Address of a digital copy or catalogue entry, as recorded."""
+    link: str | None
+    """The same address when it is a web address (http or https), the only kind offered as a link."""
     text: str
     """The whole citation as one line of text."""
 
@@ -69,8 +71,18 @@ def source_citation(source: Source) -> SourceCitation:
         collection=collection and collection.name, reference=source.reference, title=source.title,
         author=source.author, publisher=source.publisher, year=source.year, pages=source.pages,
         date_text=source.date_text, calendar=source.calendar, copy_of_key=source.copy_of.key if source.copy_of else None,
-        url=source.url, text=text,
+        url=source.url, link=web_address(source.url), text=text,
     )
+
+
+def web_address(url: str | None) -> str | None:
+    """Return ``url`` when it is an http(s) address that may be offered as a link, else None.
+
+    A stored url is data from a workbook: a ``javascript:`` or ``data:`` address must never become a link.
+    """
+    if url and url.strip().lower().startswith(("http://", "https://")):
+        return url.strip()
+    return None
 
 
 def get_citations(*, session: Session, source_ids: list[int]) -> dict[int, SourceCitation]:

@@ -37,6 +37,7 @@ __all__ = [
     "Urls",
     "is_api_request",
     "page_number",
+    "relations_only",
     "render",
     "render_error",
     "templates",
@@ -73,6 +74,13 @@ def slice_from_request(request: Request) -> Slice:
 
 SessionDep = Annotated[Session, Depends(read_session)]
 SliceDep = Annotated[Slice, Depends(slice_from_request)]
+
+
+def relations_only(slice_: SliceDep) -> None:
+    """Refuse ``mode=co-membership`` and ``mode=both`` on a page whose graph is built from relations only."""
+    if slice_.mode != "relations":
+        raise BadParameter("mode", slice_.mode, "relations on this page (mode=co-membership and mode=both are "
+                           "available on /network/two-mode and the ties page /ties/{a}/{b})")
 SettingsDep = Annotated[Settings, Depends(current_settings)]
 
 
@@ -318,6 +326,9 @@ class BadParameter(HTTPException):
         super().__init__(status_code=400, detail=f"{name}={value!s} is not accepted; accepted: {accepted}")
 
 
+MAX_PAGE = 1_000_000  # far beyond any real list, well inside what the database takes as an offset
+
+
 def page_number(value: str | None) -> int:
     """Return the number of ``?page=``; anything but a whole number of 1 or more is a 400."""
     if value is None or not value.strip():
@@ -328,6 +339,8 @@ def page_number(value: str | None) -> int:
         number = 0
     if number < 1:
         raise BadParameter("page", value, "a whole number of 1 or more")
+    if number > MAX_PAGE:
+        raise BadParameter("page", value, f"a whole number no larger than {MAX_PAGE}")
     return number
 
 

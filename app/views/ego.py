@@ -13,7 +13,7 @@ import threading
 from collections import OrderedDict
 from dataclasses import dataclass
 
-from fastapi import APIRouter, HTTPException, Query, Request
+from fastapi import APIRouter, Depends, HTTPException, Query, Request
 from fastapi.responses import HTMLResponse, Response
 from sqlalchemy.orm import Session
 
@@ -22,12 +22,12 @@ from app.network.ego import EgoEdge, EgoNetwork, EgoNode, ego_network
 from app.network.slice import Slice, resolve_slice
 from app.store.network_labels import get_person_label, list_relation_kinds
 from app.store.summary import get_data_version
-from app.views.common import BadParameter, SessionDep, SliceDep, render, templates, urls_for
+from app.views.common import BadParameter, SessionDep, SliceDep, relations_only, render, templates, urls_for
 from app.views.slicing import SliceControls, slice_controls
 
 __all__ = ["EgoPanel", "ego_panel", "router"]
 
-router = APIRouter(tags=["network"])
+router = APIRouter(tags=["network"], dependencies=[Depends(relations_only)])
 RADII = ("1", "2")
 
 

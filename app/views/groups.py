@@ -15,6 +15,7 @@ from app.network.group_drawing import GroupNeighbourhood, neighbourhood_of_group
 from app.network.slice import Slice, resolve_slice
 from app.store.groups import GroupDetail, GroupList, TermDate, get_group, list_group_kinds, search_groups
 from app.views.common import BadParameter, SessionDep, SliceDep, render
+from app.views.tables import spreadsheet_safe
 
 __all__ = ["GroupPage", "GroupsPage", "group_view", "groups_view", "members_csv", "router"]
 
@@ -78,11 +79,11 @@ def members_csv(group: GroupDetail) -> str:
     writer = csv.writer(out, lineterminator="\r\n")
     writer.writerow(MEMBER_COLUMNS)
     for m in group.members:
-        writer.writerow([
+        writer.writerow([spreadsheet_safe(cell) for cell in [
             m.person.key, m.person.name, m.role, *_term_cells(m.start), *_term_cells(m.end),
             m.attested_from, m.attested_to, "|".join(m.attestation_dates), m.counts.attestations, m.counts.documents,
             "|".join(dict.fromkeys(att.source.key for att in m.attestations)),
-        ])  # fmt: skip
+        ]])  # fmt: skip
     return out.getvalue()
 
 

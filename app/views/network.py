@@ -35,7 +35,7 @@ from app.store.jobs import JobInfo, get_job_by_id
 from app.store.network_labels import get_person_label, list_person_labels_by_key
 from app.store.persons import PersonRef
 from app.views.charts import degree_chart
-from app.views.common import BadParameter, SessionDep, SliceDep, Urls, render, templates, urls_for
+from app.views.common import BadParameter, SessionDep, SliceDep, Urls, relations_only, render, templates, urls_for
 from app.views.network_models import (
     BackgroundJob,
     BridgeRow,
@@ -84,7 +84,7 @@ __all__ = [
     "tables_of",
 ]
 
-router = APIRouter(tags=["network"])
+router = APIRouter(tags=["network"], dependencies=[Depends(relations_only)])
 
 VIEWS = ("summary", "centrality", "components", "cut-points", "cliques", "communities")
 SORTS = {"rank": "asc", "name": "asc", "value": "desc", "raw": "desc"}

@@ -210,10 +210,8 @@ def source_view(*, session: Session, key: str, slice_: Slice) -> SourcePage:
     source = get_source(session=session, key=key)
     if source is None:
         raise HTTPException(status_code=404, detail=f"No source has the key '{key}'.")
-    url = (source.citation.url or "").strip()
     # Only web addresses become links: a javascript: or data: url would run in the page.
-    link_out = url if url.lower().startswith(("http://", "https://")) else None
-    return SourcePage(source=source, link_out=link_out, slice=slice_)
+    return SourcePage(source=source, link_out=source.citation.link, slice=slice_)
 
 
 _SOURCE = (

@@ -45,4 +45,18 @@ def _cell(value: object) -> object:
         return "yes" if value else "no"
     if isinstance(value, float):
         return repr(value)
+    return spreadsheet_safe(value)
+
+
+FORMULA_STARTS = ("=", "+", "-", "@", "\t", "\r")
+
+
+def spreadsheet_safe(value: object) -> object:
+    """Return text that a spreadsheet will show as text: a cell starting like a formula gets a quote.
+
+    Names and quotes come from workbooks; ``=HYPERLINK(...)`` in a name must not run when a
+    downloaded table is opened. (The workbook export keeps values exactly, for round trips.)
+    """
+    if isinstance(value, str) and value.startswith(FORMULA_STARTS):
+        return "'" + value
     return value

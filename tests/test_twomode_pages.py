@@ -1,0 +1,246 @@
+"""The two-mode page (/network/two-mode), its JSON twin and CSV downloads, and the ties page under
+mode=co-membership, over HTTP on a real database imported through the workbook.
+
+References: the Southern Women data of Davis, Gardner & Gardner (1941), shipped with networkx as
+``davis_southern_women_graph``; projections compared with
+``networkx.algorithms.bipartite.weighted_projected_graph`` (shared counts, Breiger 1974) and
+``collaboration_weighted_projected_graph`` (Newman 2001); density with ``bipartite.density`` and
+clustering with ``bipartite.latapy_clustering`` (Latapy, Magnien & Del Vecchio 2008).
+"""
+
+from __future__ import annotations
+
+import csv
+import io
+
+import pytest
+from bs4 import BeautifulSoup
+from fastapi.testclient import TestClient
+from networkx.algorithms import bipartite
+
+from app.main import create_app
+from tests.test_groups import make_settings
+from tests.twomode_world import DAVIS, EVENTS, MARKUP_GROUP, WOMEN, event_key, woman_key
+
+PARISH_PERSONS = {"p-aart", "p-bette", "p-cas", "p-dirk"}
+PARISH_GROUPS = {"g-parish", "g-guild"}
+
+
+@pytest.fixture(scope="module")
+def client(tmp_path_factory):
+    settings, database = make_settings(tmp_path_factory.mktemp("twomode_pages"))
+    database.dispose()
+    with TestClient(create_app(settings)) as test_client:
+        yield test_client
+
+
+def api(client: TestClient, **query: str) -> dict:
+    response = client.get("/api/network/two-mode", params=query)
+    assert response.status_code == 200, response.text
+    return response.json()
+
+
+def test_counts_density_and_degrees(client: TestClient):
+    page = api(client)
+    # Southern Women: 18 women, 14 events, 89 attendances; parish world: 4 persons, 2 groups, 6 memberships.
+    assert (page["persons"], page["groups"], page["memberships"]) == (18 + 4, 14 + 2, 89 + 6)
+    assert page["density"] == pytest.approx((89 + 6) / (22 * 16))
+    persons = {row["person"]["key"]: row["groups"] for row in page["person_degrees"]}
+    for woman in WOMEN:
+        assert persons[woman_key(woman)] == DAVIS.degree(woman)
+    assert {k: persons[k] for k in PARISH_PERSONS} == {"p-aart": 2, "p-bette": 2, "p-cas": 1, "p-dirk": 1}
+    groups = {row["group"]["key"]: row["members"] for row in page["group_degrees"]}
+    assert {event_key(e): DAVIS.degree(e) for e in EVENTS} == {k: v for k, v in groups.items() if k not in PARISH_GROUPS}
+    assert groups["g-parish"] == 4 and groups["g-guild"] == 2
+    degrees = [row["groups"] for row in page["person_degrees"]]
+    assert degrees == sorted(degrees, reverse=True)
+    # Clustering of the women equals networkx's Latapy clustering (the parish world is a separate component).
+    reference = bipartite.latapy_clustering(DAVIS)
+    clustering = {row["person"]["key"]: row["clustering"] for row in page["person_degrees"]}
+    for woman in WOMEN:
+        assert clustering[woman_key(woman)] == pytest.approx(reference[woman])
+
+
+def test_density_equals_networkx(client: TestClient):
+    # networkx's bipartite.density on the same two-mode graph: the Southern Women and the parish world.
+    import networkx as nx
+
+    union = nx.union(DAVIS, nx.Graph([("A", "parish"), ("B", "parish"), ("C", "parish"), ("D", "parish"),
+                                      ("A", "guild"), ("B", "guild")]))  # fmt: skip
+    top = set(WOMEN) | {"A", "B", "C", "D"}
+    assert api(client)["density"] == pytest.approx(bipartite.density(union, top))
+
+
+@pytest.mark.parametrize("weighting", ["shared", "newman", "jaccard"])
+def test_person_pairs_equal_networkx_projections(client: TestClient, weighting: str):
+    page = api(client, weighting=weighting)
+    reference = {
+        "shared": bipartite.weighted_projected_graph(DAVIS, WOMEN),
+        "newman": bipartite.collaboration_weighted_projected_graph(DAVIS, WOMEN),
+        "jaccard": bipartite.overlap_weighted_projected_graph(DAVIS, WOMEN),
+    }[weighting]
+    expected = {frozenset((woman_key(u), woman_key(v))): w for u, v, w in reference.edges(data="weight")}
+    shown = {frozenset((p["a"]["key"], p["b"]["key"])): p["weight"] for p in page["person_pairs"]}
+    women_pairs = {pair: w for pair, w in shown.items() if not pair & PARISH_PERSONS}
+    # The page shows the heaviest 100 pairs of all; every shown pair has networkx's weight ...
+    assert women_pairs and all(w == pytest.approx(expected[pair]) for pair, w in women_pairs.items())
+    # ... and nothing heavier was left out.
+    lightest = min(p["weight"] for p in page["person_pairs"])
+    assert all(w <= lightest + 1e-9 for pair, w in expected.items() if pair not in shown)
+    assert page["person_pairs_total"] == len(expected) + 6  # the four parishioners pair up six ways
+
+
+def test_group_pairs_equal_networkx_projection(client: TestClient):
+    page = api(client)
+    reference = bipartite.weighted_projected_graph(DAVIS, EVENTS)
+    expected = {frozenset((event_key(u), event_key(v))): w for u, v, w in reference.edges(data="weight")}
+    shown = {frozenset((p["a"]["key"], p["b"]["key"])): (p["weight"], p["shared"], len(p["members"])) for p in page["group_pairs"]}
+    assert shown.pop(frozenset(PARISH_GROUPS)) == (2, 2, 2)  # Aart and Bette
+    assert {pair: w for pair, (w, _, _) in shown.items()} == expected
+    assert all(w == s == m for w, s, m in shown.values())
+
+
+def test_csv_downloads_parse_and_match(client: TestClient):
+    def table(name: str, **extra: str) -> list[list[str]]:
+        response = client.get("/network/two-mode", params={"format": "csv", "table": name, **extra})
+        assert response.status_code == 200 and response.headers["content-type"].startswith("text/csv")
+        return list(csv.reader(io.StringIO(response.text)))
+
+    rows = table("incidence")
+    header, body = rows[0], rows[1:]
+    assert len(header) == 1 + 16 and len(body) == 22
+    assert sum(int(v) for row in body for v in row[1:]) == 89 + 6
+    assert f"g-guild ({MARKUP_GROUP})" in header
+    col = {label.split(" ")[0]: n for n, label in enumerate(header)}
+    row = {r[0].split(" ")[0]: r for r in body}
+    for woman, event in DAVIS.edges():
+        w, e = (woman, event) if woman in WOMEN else (event, woman)
+        assert row[woman_key(w)][col[event_key(e)]] == "1"
+
+    matrix = table("person_projection", weighting="newman")
+    col = {label.split(" ")[0]: n for n, label in enumerate(matrix[0])}
+    row = {r[0].split(" ")[0]: r for r in matrix[1:]}
+    reference = bipartite.collaboration_weighted_projected_graph(DAVIS, WOMEN)
+    for u, v, w in reference.edges(data="weight"):
+        assert float(row[woman_key(u)][col[woman_key(v)]]) == pytest.approx(w)
+    assert all(float(row[k][col[k]]) == 0 for k in row)
+
+    groups = table("group_projection")
+    col = {label.split(" ")[0]: n for n, label in enumerate(groups[0])}
+    row = {r[0].split(" ")[0]: r for r in groups[1:]}
+    assert row["g-parish"][col["g-guild"]] == "2"
+
+    persons = table("persons")
+    assert persons[0] == ["person_key", "person", "groups", "clustering"]
+    assert {r[0]: int(r[2]) for r in persons[1:]}[woman_key("Evelyn Jefferson")] == DAVIS.degree("Evelyn Jefferson")
+    assert len(table("groups")) == 1 + 16
+
+
+def test_overlap_required_on_the_parish(client: TestClient):
+    # On paper (tests/twomode_world.py): in the parish Aart 1650-1660, Bette 1712 only, Cas 1705-1715
+    # (start recorded, end from the entry of 1715), Dirk undated; in the guild Aart 1655, Bette 1650-1700.
+    # Overlapping terms: Bette and Cas in the parish (1712 within 1705-1715); Aart and Bette in the guild.
+    page = api(client, overlap="required")
+    parish_pairs = {frozenset((p["a"]["key"], p["b"]["key"])): p["shared"] for p in page["person_pairs"]
+                    if {p["a"]["key"], p["b"]["key"]} <= PARISH_PERSONS}  # fmt: skip
+    assert parish_pairs == {frozenset(("p-bette", "p-cas")): 1, frozenset(("p-aart", "p-bette")): 1}
+    any_pairs = {frozenset((p["a"]["key"], p["b"]["key"])): p["shared"] for p in api(client)["person_pairs"]
+                 if {p["a"]["key"], p["b"]["key"]} <= PARISH_PERSONS}  # fmt: skip
+    assert any_pairs[frozenset(("p-aart", "p-bette"))] == 2  # parish and guild, whenever held
+
+
+def test_the_page_links_and_states_its_conventions(client: TestClient):
+    response = client.get("/network/two-mode", params={"weighting": "jaccard", "overlap": "required"})
+    assert response.status_code == 200
+    soup = BeautifulSoup(response.text, "lxml")
+    text = soup.get_text(" ")
+    assert "Latapy" in text and "Jaccard" in text and "overlap=required" in text and "span of the dates" in text
+    link = soup.select_one("#person-pairs a.pair-link")["href"]
+    assert link.startswith("/ties/") and "mode=co-membership" in link and "overlap=required" in link
+    assert "<script>" not in str(soup.select_one("#group-degrees"))  # markup shown as text
+    assert MARKUP_GROUP in soup.select_one("#group-degrees").get_text()
+    for page in ("/network", "/groups"):
+        assert BeautifulSoup(client.get(page).text, "lxml").select_one('a[href^="/network/two-mode"]') is not None
+
+
+def test_empty_projection_says_so(client: TestClient):
+    # max_group_size=1 leaves out every group of two or more members, so no two persons share a group.
+    soup = BeautifulSoup(client.get("/network/two-mode", params={"max_group_size": "1"}).text, "lxml")
+    assert soup.select_one('.empty-projection[data-projection="persons"]') is not None
+    assert soup.select_one('.empty-projection[data-projection="groups"]') is not None
+
+
+@pytest.mark.parametrize(
+    ("path", "query", "parameter"),
+    [
+        ("/api/network/two-mode", {"weighting": "heavy"}, "weighting"),
+        ("/api/network/two-mode", {"format": "csv", "table": "matrix"}, "table"),
+        ("/api/network/two-mode", {"format": "xlsx"}, "format"),
+        ("/api/network/two-mode", {"overlap": "sometimes"}, "overlap"),
+        ("/api/ties/p-aart/p-bette", {"mode": "groups"}, "mode"),
+        ("/api/network/summary", {"mode": "co-membership"}, "mode"),
+        ("/api/network/centrality", {"mode": "both"}, "mode"),
+        ("/api/persons/p-aart/ego", {"mode": "co-membership"}, "mode"),
+        ("/api/persons/p-aart", {"mode": "both"}, "mode"),
+    ],
+)
+def test_bad_parameters_are_400_naming_them(client: TestClient, path: str, query: dict, parameter: str):
+    response = client.get(path, params=query)
+    assert response.status_code == 400, response.text
+    assert response.json()["detail"].startswith(f"{parameter}=")
+
+
+def test_pages_that_build_relations_only_refuse_co_membership_with_a_pointer(client: TestClient):
+    detail = client.get("/api/network/summary", params={"mode": "co-membership"}).json()["detail"]
+    assert "/network/two-mode" in detail and "ties page" in detail
+
+
+def test_ties_page_lists_shared_groups_with_both_attestations_and_overlap(client: TestClient):
+    page = client.get("/api/ties/p-aart/p-bette", params={"mode": "co-membership"}).json()
+    assert page["ties"] is None
+    shared = {g["group"]["key"]: g for g in page["shared_groups"]}
+    assert set(shared) == {"g-parish", "g-guild"}
+    parish, guild = shared["g-parish"], shared["g-guild"]
+    # Aart 1650-1660 (term as recorded), Bette 1712 (span of the attestation dates): no overlap.
+    assert parish["overlap"] is False and parish["counted"] is True
+    assert (parish["first"][0]["start"], parish["first"][0]["end"]) == ("1650-01-01", "1660-12-31")
+    assert parish["first"][0]["term_from"] == "term as recorded"
+    assert parish["second"][0]["term_from"] == "span of the attestation dates"
+    assert [a["source"]["key"] for a in parish["first"][0]["attestations"]] == ["s-reg-1655"]
+    assert [a["source"]["key"] for a in parish["second"][0]["attestations"]] == ["s-reg-1712"]
+    # Guild: Aart 1655 (roll), Bette 1650-1700 as recorded: overlap.
+    assert guild["overlap"] is True
+    assert [a["source"]["key"] for a in guild["second"][0]["attestations"]] == ["s-roll-1690"]
+
+    required = client.get("/api/ties/p-aart/p-bette", params={"mode": "both", "overlap": "required"}).json()
+    assert required["ties"] is not None
+    assert {g["group"]["key"]: g["counted"] for g in required["shared_groups"]} == {"g-parish": False, "g-guild": True}
+    # Dirk's membership is undated: overlap unknown.
+    dirk = client.get("/api/ties/p-aart/p-dirk", params={"mode": "co-membership"}).json()["shared_groups"]
+    assert [(g["group"]["key"], g["overlap"]) for g in dirk] == [("g-parish", None)]
+
+    soup = BeautifulSoup(client.get("/ties/p-aart/p-bette", params={"mode": "co-membership"}).text, "lxml")
+    sections = {s["data-group"]: s for s in soup.select("section.shared-group")}
+    assert sections["g-parish"]["data-overlap"] == "no" and sections["g-guild"]["data-overlap"] == "yes"
+    assert "do not overlap" in sections["g-parish"].get_text()
+    assert "Parish register" in sections["g-parish"].get_text() and "Guild roll" in sections["g-guild"].get_text()
+    assert MARKUP_GROUP in soup.get_text() and "<script>alert(1)" not in str(soup.select_one("#shared-groups"))
+    # Links to the persons drop the mode their pages cannot show.
+    assert all("mode=" not in a["href"] for a in soup.select(".tie-persons a"))
+    assert client.get("/api/ties/p-aart/p-bette").json()["shared_groups"] is None
+
+
+def test_openapi_documents_the_routes_and_every_field(client: TestClient):
+    import dataclasses
+
+    from app.views.ties import GroupInCommon, MembershipInCommon, TiesPage
+    from app.views.twomode import GroupDegree, GroupPair, PersonDegree, PersonPair, TwoModePage
+
+    schema = client.get("/openapi.json").json()
+    for path in ("/network/two-mode", "/api/network/two-mode", "/ties/{a}/{b}"):
+        operation = schema["paths"][path]["get"]
+        assert operation["summary"] and operation["description"], path
+    for model in (TwoModePage, PersonDegree, GroupDegree, PersonPair, GroupPair, TiesPage, GroupInCommon, MembershipInCommon):
+        properties = schema["components"]["schemas"][model.__name__]["properties"]
+        assert set(properties) == {f.name for f in dataclasses.fields(model)}, model.__name__
+        assert [n for n, spec in properties.items() if not spec.get("description")] == [], model.__name__

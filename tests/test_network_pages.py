@@ -338,7 +338,7 @@ def test_the_summary_draws_its_degree_distribution_and_warns(client: TestClient)
     body = client.get("/api/network/summary").json()
     # the evidence world: a handful of persons, most evidence from the Vell family papers
     assert body["warnings"][0].startswith(f"Only {body['persons']} persons and {body['ties']} ties")
-    assert any("come from one collection, Vell family papers" in w for w in body["warnings"])
+    assert any("come from one collection, Harwick Town Archive: Vell family papers" in w for w in body["warnings"])
     assert sum(d["persons"] for d in body["degree_distribution"]) == body["persons"]
     assert body["context"]["n"] == body["persons"]
     page = soup_of(client.get("/network/summary"))

@@ -295,3 +295,59 @@ def test_demo_every_input_row_survives_the_round_trip(database, tmp_path):
         assert original <= back, name
     with database.read() as session:
         assert session.scalar(select(func.count()).select_from(Membership)) > 0
+
+
+# --- cases found in review ------------------------------------------------------------------
+
+
+def test_a_keyed_change_and_the_old_keyless_row_in_one_import(database, tmp_path):
+    """Moving r-1 to another folio and giving the old row without a key keeps both attestations."""
+    import_workbook(database, write_workbook(tmp_path / "a", small_world()), size_limit=LIMIT)
+    world = small_world()
+    moved = dict(world["relations.csv"][0], locus="fol. 2r")
+    old_without_key = dict(world["relations.csv"][0], key="")
+    world["relations.csv"] = [moved, old_without_key]
+    report = import_workbook(database, write_workbook(tmp_path / "b", world), size_limit=LIMIT)
+    assert report.rows["relations.csv"]["changed"] == 1 and report.rows["relations.csv"]["added"] == 1
+    with database.read() as session:
+        loci = set(session.scalars(select(Attestation.locus).join(Source).where(Source.key == "s-1", Attestation.relation_id.is_not(None))))
+    assert {"fol. 1r", "fol. 2r"} <= loci
+
+
+def test_a_corrected_source_calendar_moves_the_dates_that_follow_it(database, tmp_path):
+    world = small_world()
+    world["relations.csv"].append({"key": "r-own", "person": "p-anna", "other": "p-jost", "kind": "letter", "source": "s-2",
+                                   "date": "1703-06-03"})
+    import_workbook(database, write_workbook(tmp_path / "a", world), size_limit=LIMIT)
+    world["sources.csv"][1]["calendar"] = "gregorian"  # s-2 was entered as Julian by mistake
+    import_workbook(database, write_workbook(tmp_path / "b", world), size_limit=LIMIT)
+    with database.read() as session:
+        own = session.scalar(select(Attestation).where(Attestation.key == "r-own"))
+        follows = session.scalar(select(Attestation).where(Attestation.key == "r-2"))
+    assert str(own.earliest) == "1703-06-03"  # read in the source's calendar, now Gregorian
+    assert str(follows.earliest) == "1703-06-01"  # no date of its own: the source's date
+
+
+def test_generated_keys_are_the_same_in_two_databases(database, tmp_path):
+    other = Database(f"sqlite:///{tmp_path / 'other.db'}")
+    upgrade(other)
+    extra = Database(f"sqlite:///{tmp_path / 'extra.db'}")
+    upgrade(extra)
+    # a first import of something else shifts the ids of the second database
+    import_workbook(extra, write_workbook(tmp_path / "x", {"persons.csv": [{"key": "p-zz", "name": "Someone"}]}), size_limit=LIMIT)
+    import_workbook(extra, write_workbook(tmp_path / "a", small_world()), size_limit=LIMIT)
+    import_workbook(database, write_workbook(tmp_path / "b", small_world()), size_limit=LIMIT)
+    keys = []
+    for db in (database, extra):
+        with db.read() as session:
+            keys.append(set(session.scalars(select(Attestation.key).where(Attestation.key.like("att-%")))))
+    assert keys[0] and keys[0] == keys[1]
+    other.dispose()
+    extra.dispose()
+
+
+def test_a_copy_of_a_copy_is_refused(database, tmp_path):
+    world = small_world()
+    world["sources.csv"].append({"key": "s-2cc", "repository": "rep-harwick", "collection": "col-vell", "copy_of": "s-2c"})
+    problems = problems_of(database, write_workbook(tmp_path / "wb", world))
+    assert problems == ["sources.csv:6: copy_of: 's-2c' is itself a copy; copy_of must name the original"]

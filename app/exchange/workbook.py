@@ -22,7 +22,7 @@ from pathlib import Path, PurePosixPath
 from typing import Any, NamedTuple
 
 from sqlalchemy import select, update
-from sqlalchemy.orm import Session
+from sqlalchemy.orm import Session, aliased
 
 from app.dates import DEFAULT_SETTINGS, DateError, DateSettings, check_calendar, interval_or_none
 from app.db import Database
@@ -391,12 +391,14 @@ class _Importer:
         self.attestations_by_key: dict[str, tuple[int, str]] = {}
         self.attestation_signatures: dict[tuple, int] = {}
         self.deleted_matches = 0
-        self.changed_sources: set[int] = set()
+        self.changed_sources: dict[int, Row] = {}
         self.seen_keys: dict[tuple[str, str], int] = {}
+        self.signature_of: dict[int, tuple] = {}
         for att in s.execute(select(Attestation)).scalars():
             target = _target_of(att)
             self.attestations_by_key[att.key] = (att.id, target[0])
             self.attestation_signatures[_signature(att, target)] = att.id
+            self.signature_of[att.id] = _signature(att, target)
 
     # -- cell readers: each returns the parsed value or None, and records a problem --
 
@@ -681,7 +683,7 @@ class _Importer:
             current = self.session.execute(select(Source.calendar, Source.earliest, Source.latest).where(Source.id == source_id)).one()
             self.sources[key] = _Ref(source_id, tuple(current))
             if old is not None and old.extra != tuple(current):
-                self.changed_sources.add(source_id)
+                self.changed_sources[source_id] = row
         if row.has("copy_of"):
             self.pending_parents.append((row, Source, source_id, "copy_of_id", "copy_of", self.sources, "source"))
 
@@ -716,7 +718,20 @@ class _Importer:
             if self.session.execute(select(table.c[column]).where(table.c.id == record_id)).scalar_one() != value:
                 self.session.execute(table.update().where(table.c.id == record_id).values({column: value}))
                 self.count_as_changed(row)
+        if file == "sources.csv" and self.writing:
+            self._check_copies_name_originals()
         self.pending_parents = [p for p in self.pending_parents if p[0].file != file]
+
+    def _check_copies_name_originals(self) -> None:
+        """A copy names its original, never another copy: a copy and its original count as one document."""
+        original = aliased(Source)
+        chained = self.session.execute(
+            select(Source.key, original.key).join(original, Source.copy_of_id == original.id).where(original.copy_of_id.is_not(None))
+        ).all()
+        rows = {p[0].get("key"): p[0] for p in self.pending_parents if p[1] is Source}
+        for key, target in chained:
+            row = rows.get(key) or Row("sources.csv", 0, {})
+            self.problem(row, "copy_of", f"{target!r} is itself a copy; copy_of must name the original")
 
     # -- attestations --
 
@@ -762,6 +777,13 @@ class _Importer:
             if changes:
                 self.session.execute(table.update().where(table.c.id == att_id).values(**changes))
                 self.count(row, "changed")
+                # a keyless row later in this import must match the attestation as it is now
+                old = self.signature_of.pop(att_id, None)
+                if old is not None and self.attestation_signatures.get(old) == att_id:
+                    del self.attestation_signatures[old]
+                new = _signature_of_fields(fields, target_column)
+                self.attestation_signatures[new] = att_id
+                self.signature_of[att_id] = new
             else:
                 self.count(row, "unchanged")
             return
@@ -772,16 +794,19 @@ class _Importer:
                 self.deleted_matches += 1
             self.count(row, "unchanged")
             return
-        key = key or self._new_attestation_key(signature)
+        key = key or self._new_attestation_key(row)
         new_id = self.session.execute(
             table.insert().values(key=key, entered_at=self.now, **fields).returning(table.c.id)
         ).scalar_one()
         self.attestations_by_key[key] = (new_id, target_column)
         self.attestation_signatures[signature] = new_id
+        self.signature_of[new_id] = signature
         self.count(row, "added")
 
-    def _new_attestation_key(self, signature: tuple) -> str:
-        digest = hashlib.sha256(repr(signature).encode()).hexdigest()
+    def _new_attestation_key(self, row: Row) -> str:
+        """A key from the row's own cells (keys, not database ids): the same row gets the same key in any database."""
+        cells = sorted((name, value.strip()) for name, value in row.values.items() if name != "key" and value.strip())
+        digest = hashlib.sha256(repr((row.file, cells)).encode()).hexdigest()
         key = f"att-{digest[:12]}"
         n = 1
         while key in self.attestations_by_key:
@@ -889,14 +914,28 @@ class _Importer:
         self._write_attestation(row, "fact_id", fact_id, fields)
 
     def _refresh_undated_attestations(self) -> None:
-        """Attestations without a date of their own follow their source's date."""
-        for source_id in self.changed_sources:
-            earliest, latest = self.session.execute(select(Source.earliest, Source.latest).where(Source.id == source_id)).one()
+        """Attestations follow their source: its date when they have none, its calendar when they name none."""
+        for source_id, source_row in self.changed_sources.items():
+            calendar, earliest, latest = self.session.execute(
+                select(Source.calendar, Source.earliest, Source.latest).where(Source.id == source_id)
+            ).one()
             self.session.execute(
                 update(Attestation).where(Attestation.source_id == source_id, Attestation.date_text.is_(None))
                 .values(earliest=earliest, latest=latest)
             )
-
+            own_dates = self.session.execute(
+                select(Attestation.id, Attestation.date_text)
+                .where(Attestation.source_id == source_id, Attestation.date_text.is_not(None), Attestation.calendar.is_(None))
+            ).all()
+            for att_id, text in own_dates:
+                try:
+                    interval = interval_or_none(text, calendar, settings=self.date_settings)
+                except DateError as error:
+                    self.problem(source_row, "calendar", f"an attestation dated {text!r} cannot be read in this calendar: {error}")
+                    continue
+                self.session.execute(
+                    update(Attestation).where(Attestation.id == att_id).values(earliest=interval.earliest, latest=interval.latest)
+                )
 
 def _target_of(att: Attestation) -> tuple[str, int]:
     if att.relation_id is not None:

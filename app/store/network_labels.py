@@ -125,11 +125,22 @@ def list_person_labels_by_key(*, session: Session, keys: Iterable[str]) -> dict[
 
 
 def list_collection_names(*, session: Session, ids: Iterable[int]) -> dict[int, str]:
-    """Return the names of the collections of ``ids``, keyed by id."""
+    """Return a label of each collection of ``ids``, keyed by id: "repository: collection", unique.
+
+    Two archives may each hold a collection of the same name; a label that would repeat gets the
+    collection's key, so counts keyed by label never merge two collections.
+    """
     wanted = sorted(set(ids))
     if not wanted:
         return {}
-    return dict(session.execute(select(Collection.id, Collection.name).where(Collection.id.in_(wanted))).all())
+    rows = session.execute(
+        select(Collection.id, Collection.key, Collection.name, Repository.name)
+        .join(Repository, Collection.repository_id == Repository.id)
+        .where(Collection.id.in_(wanted))
+    ).all()
+    labels = {cid: f"{repository}: {name}" for cid, _key, name, repository in rows}
+    repeated = {label for label in labels.values() if list(labels.values()).count(label) > 1}
+    return {cid: f"{labels[cid]} ({key})" if labels[cid] in repeated else labels[cid] for cid, key, _n, _r in rows}
 
 
 def list_relation_kinds(*, session: Session) -> list[KindLabel]:

@@ -242,3 +242,17 @@ def test_summary_counts_distinct_attestations_and_warns():
     assert collection_warning({}) is None
     empty = summarize(nx.Graph())
     assert (empty.persons, empty.density, empty.diameter, empty.largest_share) == (0, None, None, None)
+
+
+def test_single_document_bridges_on_a_directed_slice_without_document_ids():
+    """Letters both ways, each from its own document, are not a single-document bridge (worked by hand)."""
+    import networkx as nx
+
+    from app.network.measures.cuts import cuts
+
+    G = nx.DiGraph()
+    G.add_edge(1, 2, weight=1.0, documents=1, attestations=1)  # letter 1 -> 2, document a
+    G.add_edge(2, 1, weight=1.0, documents=1, attestations=1)  # letter 2 -> 1, document b
+    G.add_edge(2, 3, weight=1.0, documents=1, attestations=1)  # letter 2 -> 3, document c
+    flags = {(b.u, b.v): b.single_document for b in cuts(G).bridges}
+    assert flags == {(1, 2): False, (2, 3): True}

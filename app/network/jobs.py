@@ -13,6 +13,7 @@ from __future__ import annotations
 
 import json
 import multiprocessing
+import threading
 import os
 import time
 import traceback
@@ -145,6 +146,7 @@ class Worker:
         self._stop = self._context.Event()
         self._process: multiprocessing.process.BaseProcess | None = None
         self._running = False  # between start() and stop(), the server's lifespan
+        self._start_lock = threading.Lock()
 
     def start(self) -> None:
         """Requeue jobs a killed server left running, and start the process if any job waits."""
@@ -161,6 +163,10 @@ class Worker:
 
     def ensure_running(self) -> None:
         """Start the worker process unless it runs; a job left by a crashed process is marked failed."""
+        with self._start_lock:  # requests run in a thread pool: two first requests must not start two workers
+            self._ensure_running()
+
+    def _ensure_running(self) -> None:
         if not self._running or (self._process is not None and self._process.is_alive()):
             return
         if self._process is not None:  # it died: what it held can not be trusted to finish

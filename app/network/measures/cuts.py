@@ -109,10 +109,16 @@ def cuts(G: nx.Graph, *, node_set: str | None = None) -> CutsResult:
             u, v, sides = v, u, (child_side, parent_side)
         data = full[u][v]
         documents = data.get("documents")
+        single = documents == 1
+        if G.is_directed() and "document_ids" not in data:
+            # Without document ids the merged count is the larger arc's, a lower bound: flag only
+            # when both arcs together hold one document (direction=undirected counts exactly).
+            arcs = [G[a][b].get("documents", 0) for a, b in ((u, v), (v, u)) if G.has_edge(a, b)]
+            single = sum(arcs) == 1
         bridges.append(Bridge(
             u=u, v=v, sides=sides, weight=float(data.get("weight", 1.0)), documents=documents,
             attestations=data.get("attestations"), attestation_ids=list(data.get("attestation_ids", [])),
-            relation_ids=list(data.get("relation_ids", [])), single_document=documents == 1,
+            relation_ids=list(data.get("relation_ids", [])), single_document=single,
         ))
     cut_points.sort(key=lambda c: (-c.cut_off, node_key(c.node)))
     bridges.sort(key=lambda b: (-min(b.sides), node_key(b.u), node_key(b.v)))
@@ -122,7 +128,9 @@ def cuts(G: nx.Graph, *, node_set: str | None = None) -> CutsResult:
         "Self-loops are left out: they never connect anyone.",
         "A cut point's pieces are the parts its removal leaves of its own component; cut points and bridges "
         "that separate most persons from the largest remaining piece come first.",
-        "A bridge attested by a single document is flagged: one lost or misread document would change the picture.",
+        "A bridge attested by a single document is flagged: one lost or misread document would change the picture"
+        + (" (on a directed slice a tie recorded both ways is flagged only when the two directions together hold one "
+           "document; direction=undirected counts exactly)." if G.is_directed() else "."),
     ])
     if G.is_directed():
         conventions += (" On a directed slice a bridge's documents are counted per arc and the larger count is given: "

@@ -87,3 +87,31 @@ def test_find_a_group_open_it_and_walk_from_the_drawing(browser: Browser, base_u
     narrow.goto(f"{base_url}/groups")
     assert narrow.evaluate("() => document.documentElement.scrollWidth") <= 380
     assert outside == []
+
+
+def test_group_member_two_mode_page_and_shared_groups(browser: Browser, base_url: str):
+    ARTIFACTS.mkdir(exist_ok=True)
+    page, outside = open_page(browser, base_url)
+    page.goto(f"{base_url}/groups/g-guild")
+    page.locator('li.membership[data-person="p-aart"] a').first.click()
+    expect(page.locator("h1")).to_contain_text("Aart Velde")
+
+    page.get_by_role("link", name="Network", exact=True).click()
+    page.get_by_role("link", name="Persons and groups (two-mode network)").click()
+    expect(page.locator("h1")).to_contain_text("two-mode network")
+    page.get_by_label("overlap (Jaccard)").check()
+    page.get_by_role("button", name="Show").click()
+    assert parse_qs(urlsplit(page.url).query)["weighting"] == ["jaccard"]
+    page.screenshot(path=str(ARTIFACTS / "two-mode.png"), full_page=True)
+
+    page.get_by_role("link", name="Aart Velde and Bette Brink").click()
+    assert parse_qs(urlsplit(page.url).query)["mode"] == ["co-membership"]
+    groups = page.locator("section.shared-group")
+    expect(groups).to_have_count(2)
+    parish = page.locator('section.shared-group[data-group="g-parish"]')
+    expect(parish).to_contain_text("do not overlap")
+    expect(parish).to_contain_text("Parish register")
+    expect(page.locator('section.shared-group[data-group="g-guild"]')).to_contain_text("Guild roll")
+    expect(page.locator('section.shared-group[data-group="g-guild"]')).to_contain_text("overlap in time")
+    page.screenshot(path=str(ARTIFACTS / "ties-co-membership.png"), full_page=True)
+    assert outside == []

@@ -456,3 +456,21 @@ def test_the_index_is_fast_on_twenty_thousand_persons(database: Database):
             assert elapsed < 2.0, (query, sort, elapsed)  # generous for a loaded CI machine; about 0.2 s here
         top = search_persons(session=session, sort="degree").rows[0]
         assert top.degree >= search_persons(session=session, sort="degree").rows[-1].degree
+
+
+def test_a_hub_lists_its_strongest_relations_first_and_offers_all(client: TestClient, monkeypatch):
+    """With the limit lowered to 1, the letters table keeps the relation with most attestations."""
+    import app.views.persons as persons_views
+
+    monkeypatch.setattr(persons_views, "RELATION_LIMIT", 1)
+    body = client.get("/api/persons/p-jost").json()
+    letters = next(g for g in body["person"]["relations"] if g["kind_key"] == "letter")["relations"]
+    page = soup_of(client.get("/persons/p-jost"))
+    rows = page.select('table.relations-table[data-kind="letter"] tbody tr')
+    assert len(letters) == 3  # to Anna, from Anna, from José (tests/evidence_world.py)
+    strongest = max(letters, key=lambda r: r["attestations"])
+    assert len(rows) == 1 and int(rows[0]["data-relation"]) == strongest["relation_id"]
+    link = page.select_one('p.relations-cut[data-kind="letter"] a')["href"]
+    assert link == "/persons/p-jost?relations=all"
+    assert len(soup_of(client.get(link)).select('table.relations-table[data-kind="letter"] tbody tr')) == len(letters)
+    assert client.get("/persons/p-jost?relations=some").status_code == 400

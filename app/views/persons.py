@@ -41,6 +41,10 @@ class PersonsPage:
     """The sort orders offered."""
 
 
+RELATION_LIMIT = 200
+"""Relations of one kind listed on a person's page before "show all": a hub has thousands."""
+
+
 @dataclass(frozen=True)
 class PersonPage:
     """Everything recorded about one person, and the slice that links to ties keep."""
@@ -57,6 +61,8 @@ class PersonPage:
     """True when the slice is not the default one (each relation then says how much of it the slice keeps)."""
     ego: Any | None = None
     """The ego network panel drawn around the person (filled in by the ego view; None when not drawn)."""
+    relation_limit: int | None = RELATION_LIMIT
+    """How many relations of each kind the page lists (those with most attestations); None: all. The JSON lists all."""
 
 
 def persons_view(*, session: Session, q: str = "", sort: str | None = None, page: str | None = None) -> PersonsPage:
@@ -71,7 +77,7 @@ def persons_view(*, session: Session, q: str = "", sort: str | None = None, page
     return PersonsPage(result=result, sorts=list(PERSON_SORTS))
 
 
-def person_view(*, session: Session, key: str, slice_: Slice) -> PersonPage:
+def person_view(*, session: Session, key: str, slice_: Slice, relations: str | None = None) -> PersonPage:
     """Return the view-model of one person's page (the key must be current: see person_or_redirect)."""
     resolved = resolve_slice(session, slice_)
     sliced = slice_ != Slice()
@@ -83,7 +89,10 @@ def person_view(*, session: Session, key: str, slice_: Slice) -> PersonPage:
     if person is None:
         raise HTTPException(status_code=404, detail=f"no person with key '{key}'")
     ego = ego_panel(session=session, person_key=key, slice=slice_, radius=1)
-    return PersonPage(person=person, slice=slice_, slice_description=slice_.describe(), sliced=sliced, ego=ego)
+    if relations not in (None, "", "all"):
+        raise BadParameter("relations", relations, "all (list every relation of each kind)")
+    return PersonPage(person=person, slice=slice_, slice_description=slice_.describe(), sliced=sliced, ego=ego,
+                      relation_limit=None if relations == "all" else RELATION_LIMIT)
 
 
 def person_or_redirect(request: Request, session: Session, key: str, parameter: str = "key") -> PersonRef | Response:
@@ -122,7 +131,9 @@ _PERSON = (
     "roles, the number of attestations, the years they cover and the strongest certainty. Deleted "
     "attestations never count. The slice parameters (`kind`, `from`, `to`, `certainty`, ...) are kept "
     "in links to the ties pages, and each relation then says how many attestations the slice keeps. "
-    "The ego network of the slice (radius 1) comes with it, as on `/persons/{key}/ego`. "
+    "The ego network of the slice (radius 1) comes with it, as on `/persons/{key}/ego`. The page lists "
+    "at most 200 relations of each kind (those with the most attestations; `relations=all` lists every one); "
+    "the JSON always lists every one. "
     "An old key of a merged person redirects (308) to the current one; an unknown key is a 404."
 )
 
@@ -144,17 +155,17 @@ def persons_api(request: Request, session: SessionDep, q: str = "", sort: str | 
 
 @router.get("/persons/{key}", response_class=HTMLResponse, dependencies=[Depends(relations_only)], summary="One person (page)",
             description=_PERSON + " The same data in JSON: `/api/persons/{key}`.")  # fmt: skip
-def person_page(request: Request, key: str, session: SessionDep, slice_: SliceDep) -> Response:
+def person_page(request: Request, key: str, session: SessionDep, slice_: SliceDep, relations: str | None = None) -> Response:
     current = person_or_redirect(request, session, key)
     if isinstance(current, Response):
         return current
-    return render(request, person_view(session=session, key=current.key, slice_=slice_), template="person.html")
+    return render(request, person_view(session=session, key=current.key, slice_=slice_, relations=relations), template="person.html")
 
 
 @router.get("/api/persons/{key}", response_model=PersonPage, dependencies=[Depends(relations_only)], summary="One person (JSON)",
             description=_PERSON + " The page with the same data: `/persons/{key}`.")  # fmt: skip
-def person_api(request: Request, key: str, session: SessionDep, slice_: SliceDep) -> Response:
+def person_api(request: Request, key: str, session: SessionDep, slice_: SliceDep, relations: str | None = None) -> Response:
     current = person_or_redirect(request, session, key)
     if isinstance(current, Response):
         return current
-    return render(request, person_view(session=session, key=current.key, slice_=slice_), template="person.html")
+    return render(request, person_view(session=session, key=current.key, slice_=slice_, relations=relations), template="person.html")

@@ -21,6 +21,7 @@ from jinja2 import Environment, FileSystemLoader, StrictUndefined
 from sqlalchemy.exc import SQLAlchemyError
 from sqlalchemy.orm import Session
 
+from app.auth import csrf_token, current_actor
 from app.config import Settings
 from app.network.slice import Slice, SliceError
 from app.store.summary import get_data_version
@@ -291,7 +292,8 @@ def render(
     """
     if is_api_request(request):
         return JSONResponse(to_json(view), status_code=status_code, headers=headers)
-    context = {"page": view, "urls": urls_for(request)}
+    context = {"page": view, "urls": urls_for(request), "csrf_token": csrf_token(request),
+               "actor": current_actor(request)}
     if partial is not None and wants_partial(request):
         html = templates.get_template(partial).render(context)
     else:

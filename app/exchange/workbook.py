@@ -285,16 +285,39 @@ def import_workbook(
     tables, problems, warnings, digest = read_workbook(path, size_limit=size_limit)
     if problems:
         raise WorkbookError(problems)
+    return import_tables(
+        database, tables, name=Path(path).name, sha256=digest, warnings=warnings,
+        date_settings=date_settings, actor=actor,
+    )
+
+
+def import_tables(
+    database: Database,
+    tables: dict[str, list[Row]],
+    *,
+    name: str,
+    sha256: str,
+    warnings: list[str] | None = None,
+    date_settings: DateSettings = DEFAULT_SETTINGS,
+    actor: str = "cli",
+) -> ImportReport:
+    """Import rows already read (from a workbook, or converted from TEI or GraphML) in one transaction.
+
+    ``tables`` maps a workbook file name (``persons.csv``) to its rows; each ``Row`` names the
+    file and line it came from, so a problem points at the original file. Raises WorkbookError
+    (nothing written) when any row has a problem. ``name`` and ``sha256`` describe the file
+    for the one audit entry of the import.
+    """
     with database.write() as session:
         importer = _Importer(session, date_settings)
         report = importer.run(tables)
-        report.warnings[:0] = warnings
-        report.sha256 = digest
+        report.warnings[:0] = warnings or []
+        report.sha256 = sha256
         if importer.problems:
             session.rollback()
             raise WorkbookError(importer.problems, importer.problem_count)
         if report.changed_anything:
-            report.data_version = _record_import(session, report, Path(path).name, actor)
+            report.data_version = _record_import(session, report, name, actor)
         else:
             report.data_version = session.scalar(select(DataVersion.version)) or 0
     return report

@@ -19,12 +19,15 @@ from app.config import Settings
 from app.db import Database, DatabaseError, check_schema
 from app.network.jobs import Worker
 from app.network.slice import SliceError
+from app.views import audit as audit_views
 from app.views import ego as ego_views
+from app.views import editing as editing_views
 from app.views import groups as groups_views
 from app.views import home
 from app.views import network as network_views
 from app.views import persons as persons_views
 from app.views import places as places_views
+from app.views import records as records_views
 from app.views import sources as sources_views
 from app.views import ties as ties_views
 from app.views import twomode as twomode_views
@@ -66,6 +69,9 @@ def create_app(settings: Settings) -> FastAPI:
 
     app.mount("/static", StaticFiles(directory=STATIC_DIR), name="static")
     app.include_router(home.router)
+    app.include_router(editing_views.router)  # before persons: /persons/{key}/edit is not a person's page
+    app.include_router(records_views.router)
+    app.include_router(audit_views.router)
     app.include_router(persons_views.router)
     app.include_router(groups_views.router)
     app.include_router(sources_views.router)

@@ -160,6 +160,7 @@ class Source(Base):
     copy_of_id: Mapped[int | None] = mapped_column(_fk("source.id"), index=True)
     url: Mapped[str | None] = mapped_column(Text)
     note: Mapped[str | None] = mapped_column(Text)
+    version: Mapped[int] = mapped_column(Integer, default=1, server_default="1")  # optimistic concurrency: +1 per edit
 
     collection: Mapped[Collection | None] = relationship()
     place_from: Mapped[Place | None] = relationship(foreign_keys=[place_from_id])
@@ -192,6 +193,7 @@ class Person(Base):
     died_latest: Mapped[date | None] = mapped_column(Date)
     calendar: Mapped[str] = mapped_column(String(20), default="gregorian")  # of born and died
     note: Mapped[str | None] = mapped_column(Text)
+    version: Mapped[int] = mapped_column(Integer, default=1, server_default="1")  # optimistic concurrency: +1 per edit
 
     names: Mapped[list[PersonName]] = relationship(back_populates="person", order_by="PersonName.id")
     identifiers: Mapped[list[PersonIdentifier]] = relationship(
@@ -236,6 +238,23 @@ class PersonAlias(Base):
     id: Mapped[int] = mapped_column(primary_key=True)
     key: Mapped[str] = _key_column()
     person_id: Mapped[int] = mapped_column(_fk("person.id"), index=True)
+
+
+class PersonLink(Base):
+    """Two persons who may be the same, short of a merge; measures can treat them as one (``same_as=merge``)."""
+
+    __tablename__ = "person_link"
+    __table_args__ = (
+        UniqueConstraint("person_a", "person_b"),
+        CheckConstraint("person_a < person_b", name="pair_sorted"),
+    )
+
+    id: Mapped[int] = mapped_column(primary_key=True)
+    person_a: Mapped[int] = mapped_column(_fk("person.id"), index=True)
+    person_b: Mapped[int] = mapped_column(_fk("person.id"), index=True)
+    note: Mapped[str | None] = mapped_column(Text)
+    created_by: Mapped[str] = mapped_column(String(100))
+    created_at: Mapped[datetime] = mapped_column(DateTime)
 
 
 class PersonFact(Base):
@@ -308,6 +327,7 @@ class Relation(Base):
     kind_directed: Mapped[bool] = mapped_column(Boolean)
     person_a_id: Mapped[int] = mapped_column(_fk("person.id"))
     person_b_id: Mapped[int] = mapped_column(_fk("person.id"))
+    version: Mapped[int] = mapped_column(Integer, default=1, server_default="1")  # optimistic concurrency: +1 per edit
 
     kind: Mapped[RelationKind] = relationship(foreign_keys=[kind_id], primaryjoin="Relation.kind_id == RelationKind.id")
     person_a: Mapped[Person] = relationship(foreign_keys=[person_a_id])
@@ -339,6 +359,7 @@ class Group(Base):
     end_earliest: Mapped[date | None] = mapped_column(Date)
     end_latest: Mapped[date | None] = mapped_column(Date)
     note: Mapped[str | None] = mapped_column(Text)
+    version: Mapped[int] = mapped_column(Integer, default=1, server_default="1")  # optimistic concurrency: +1 per edit
 
     place: Mapped[Place | None] = relationship()
     parent: Mapped[Group | None] = relationship(remote_side=[id])
@@ -360,6 +381,7 @@ class Membership(Base):
     end_text: Mapped[str | None] = mapped_column(String(100))
     end_earliest: Mapped[date | None] = mapped_column(Date)
     end_latest: Mapped[date | None] = mapped_column(Date)
+    version: Mapped[int] = mapped_column(Integer, default=1, server_default="1")  # optimistic concurrency: +1 per edit
 
     person: Mapped[Person] = relationship()
     group: Mapped[Group] = relationship()
@@ -410,6 +432,7 @@ class Attestation(Base):
     entered_at: Mapped[datetime | None] = mapped_column(DateTime)
     deleted_at: Mapped[datetime | None] = mapped_column(DateTime)
     deleted_reason: Mapped[str | None] = mapped_column(Text)
+    version: Mapped[int] = mapped_column(Integer, default=1, server_default="1")  # optimistic concurrency: +1 per edit
 
     relation: Mapped[Relation | None] = relationship()
     membership: Mapped[Membership | None] = relationship()
@@ -448,6 +471,7 @@ class AuditEntry(Base):
     before_json: Mapped[str | None] = mapped_column(Text)
     after_json: Mapped[str | None] = mapped_column(Text)
     summary: Mapped[str | None] = mapped_column(Text)
+    redacted_at: Mapped[datetime | None] = mapped_column(DateTime)  # personal data taken out by an admin (see the redact entry)
 
 
 class DataVersion(Base):

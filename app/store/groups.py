@@ -161,6 +161,8 @@ class GroupMember:
     """The attestations (not deleted), in date order."""
     counts: EvidenceCounts
     """Documents, copies, mentions, collections and years of those attestations."""
+    membership_id: int | None = None
+    """Id of the membership (its page is /memberships/{id})."""
 
 
 @dataclass(frozen=True)
@@ -356,6 +358,7 @@ def _members(session: Session, group_id: int) -> list[GroupMember]:
             end=_term_date(m.end_text, m.end_earliest, m.end_latest), attested_from=counts.earliest,
             attested_to=counts.latest, attested=year_span(counts.earliest, counts.latest),
             attestation_dates=[att.date_text or "undated" for att in atts], attestations=atts, counts=counts,
+            membership_id=m.id,
         ))  # fmt: skip
     sort_name = {mid: fold(p.sort_name or p.name) for mid, (_, p) in memberships.items()}
     order = sorted(memberships, key=lambda mid: (

@@ -202,6 +202,8 @@ class PersonMembership:
     """Attestations (not deleted)."""
     span: str | None
     """Years the attestations cover."""
+    membership_id: int | None = None
+    """Id of the membership (its page is /memberships/{id})."""
 
 
 @dataclass(frozen=True)
@@ -586,7 +588,7 @@ def _memberships(session: Session, pid: int) -> list[PersonMembership]:
     ).all()
     return [
         PersonMembership(group_key=key, group=name, role=m.role, start=m.start_text, end=m.end_text,
-                         attestations=count, span=year_span(first, last))
+                         attestations=count, span=year_span(first, last), membership_id=m.id)
         for m, key, name, count, first, last in rows
     ]  # fmt: skip
 

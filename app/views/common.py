@@ -176,6 +176,64 @@ class Urls:
     def person_measures(self, key: str, slice: Slice | None = None) -> str:
         return self._path(f"/persons/{_seg(key)}/measures", slice)
 
+    # -- editing and the audit trail --
+
+    def new(self, what: str, **query: str | None) -> str:
+        """The form for a new ``person``, ``source``, ``relation`` or ``membership`` (query fills fields)."""
+        return self._path(f"/new/{_seg(what)}", **query)
+
+    def edit_person(self, key: str) -> str:
+        return self._path(f"/persons/{_seg(key)}/edit")
+
+    def edit_source(self, key: str) -> str:
+        return self._path(f"/sources/{_seg(key)}/edit")
+
+    def relation_attestations(self, relation_id: int) -> str:
+        return self._path(f"/relations/{int(relation_id)}/attestations")
+
+    def membership(self, membership_id: int) -> str:
+        return self._path(f"/memberships/{int(membership_id)}")
+
+    def edit_membership(self, membership_id: int) -> str:
+        return self._path(f"/memberships/{int(membership_id)}/edit")
+
+    def membership_attestations(self, membership_id: int) -> str:
+        return self._path(f"/memberships/{int(membership_id)}/attestations")
+
+    def edit_attestation(self, key: str) -> str:
+        return self._path(f"/attestations/{_seg(key)}/edit")
+
+    def delete_attestation(self, key: str) -> str:
+        return self._path(f"/attestations/{_seg(key)}/delete")
+
+    def restore_attestation(self, key: str) -> str:
+        return self._path(f"/attestations/{_seg(key)}/restore")
+
+    def merge(self, *, kept: str | None = None, absorbed: str | None = None) -> str:
+        return self._path("/merge", kept=kept or None, absorbed=absorbed or None)
+
+    def split(self, key: str) -> str:
+        return self._path(f"/persons/{_seg(key)}/split")
+
+    def person_links(self, key: str) -> str:
+        return self._path(f"/persons/{_seg(key)}/links")
+
+    def delete_person_link(self, link_id: int) -> str:
+        return self._path(f"/person-links/{int(link_id)}/delete")
+
+    def audit(self, *, user: str | None = None, table: str | None = None, key: str | None = None,
+              period_from: str | None = None, period_to: str | None = None, page: int | None = None) -> str:
+        """The audit trail; ``table`` and ``key`` give one record's history."""
+        filters = {"user": user, "table": table, "key": key, "from": period_from, "to": period_to}
+        return self._path("/audit", **{n: v for n, v in filters.items() if v},
+                          page=None if page in (None, 1) else str(page))
+
+    def audit_entry(self, entry_id: int) -> str:
+        return self._path(f"/audit/{int(entry_id)}")
+
+    def redact(self, entry_id: int) -> str:
+        return self._path(f"/audit/{int(entry_id)}/redact")
+
     def static(self, path: str) -> str:
         return self._path(f"/static/{path.lstrip('/')}")
 

@@ -2,7 +2,7 @@
 
 from __future__ import annotations
 
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 from datetime import date
 
 from fastapi import APIRouter, HTTPException, Request
@@ -12,6 +12,7 @@ from sqlalchemy.orm import Session
 from app.network.slice import Slice, relation_evidence, resolve_slice
 from app.network.twomode import MembershipEvidence, describe_term, groups_in_common, membership_evidence
 from app.store.attestations import CitedAttestation, get_cited_attestations
+from app.store.editing import DeletedAttestation, list_deleted_attestations
 from app.store.groups import GroupRef, group_refs
 from app.store.persons import PersonRef, person_id
 from app.store.ties import RelationEvidence, TiesBetween, get_relation, get_ties
@@ -95,6 +96,8 @@ class RelationPage:
     """The relation, its ends and roles, and its attestations (not deleted) in date order."""
     deleted: int
     """Deleted attestations of the relation: not shown, never counted."""
+    deleted_attestations: list[DeletedAttestation] = field(default_factory=list)
+    """Those deleted attestations with the reason, newest deletion first (editors can restore them)."""
 
 
 def ties_view(*, session: Session, a: PersonRef, b: PersonRef, slice_: Slice) -> TiesPage:
@@ -139,7 +142,8 @@ def relation_view(*, session: Session, relation_id: int) -> RelationPage:
     detail = get_relation(session=session, relation_id=relation_id)
     if detail is None:
         raise HTTPException(status_code=404, detail=f"no relation with id {relation_id}")
-    return RelationPage(relation=detail.relation, deleted=detail.deleted)
+    return RelationPage(relation=detail.relation, deleted=detail.deleted,
+                        deleted_attestations=list_deleted_attestations(session=session, relation_id=relation_id))
 
 
 def _ties_response(request: Request, session: Session, a: str, b: str, slice_: Slice) -> Response:

@@ -161,7 +161,7 @@ def _date(problems: dict[str, str], name: str, text: str, calendar: str) -> tupl
     try:
         interval = interval_or_none(text, calendar)
     except DateError as error:
-        problems[name] = f"{error} — write an EDTF date such as 1703-05-12, 1703-05, 1703?, 1701/1705"
+        problems[name] = str(error)
         return text, None, None
     return text, interval.earliest, interval.latest
 

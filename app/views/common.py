@@ -8,6 +8,7 @@ page otherwise. The page and its JSON twin therefore always show the same figure
 from __future__ import annotations
 
 import dataclasses
+import json
 from collections.abc import Iterable, Iterator
 from dataclasses import dataclass
 from datetime import date, datetime
@@ -278,6 +279,7 @@ templates = Environment(
 )
 templates.filters["count"] = _count
 templates.filters["share"] = _share
+templates.filters["pretty_json"] = lambda value: json.dumps(value, indent=2, ensure_ascii=False, sort_keys=True, default=str)
 
 
 @dataclass(frozen=True)

@@ -164,7 +164,7 @@ def attestation_fields(values: dict[str, Any], problems: dict[str, str], *, name
         _f(values, problems, "note", "note", "textarea"),
     ]
     if names:
-        fields[6:6] = [_f(values, problems, "person_as_written", "first person as written"),
+        fields[7:7] = [_f(values, problems, "person_as_written", "first person as written"),
                        _f(values, problems, "other_as_written", "other person as written")]
     return fields
 

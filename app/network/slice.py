@@ -22,6 +22,7 @@ from sqlalchemy.orm import Session, aliased
 
 from app.dates import DateError, parse_interval
 from app.models import CERTAINTIES, EVIDENCE_KINDS, Attestation, Collection, Person, Relation, RelationKind, Repository, Source
+from app.network.same_as import merge_nodes, merge_rows, same_as_mapping
 
 __all__ = [
     "EvidenceRow",
@@ -53,6 +54,7 @@ CHOICES: dict[str, tuple[str, ...]] = {
     "weight": ("documents", "attestations", "none"),
     "mode": ("relations", "co-membership", "both"),
     "overlap": ("any", "required"),
+    "same_as": ("apart", "merge"),
 }
 REPEATABLE = ("kind", "evidence", "keep_collection", "omit_collection", "keep_repository", "omit_repository")
 NUMBERS = ("min_collections", "max_group_size")
@@ -92,6 +94,7 @@ class Slice:
     mode: str = "relations"
     overlap: str = "any"
     max_group_size: int | None = None
+    same_as: str = "apart"  # merge: persons linked as possibly the same count as one (app/network/same_as.py)
 
     @classmethod
     def from_query(cls, query: Mapping[str, Sequence[str]] | Iterable[tuple[str, str]]) -> Slice:
@@ -181,6 +184,8 @@ class Slice:
             parts.append("unidentified persons dropped")
         parts.append({"recorded": "direction as recorded", "undirected": "undirected",
                       "reciprocal": "reciprocated ties only"}[self.direction])
+        if self.same_as == "merge":
+            parts.append("persons linked as possibly the same counted as one")
         if self.mode != "relations":
             parts.append({"co-membership": "ties by shared groups", "both": "relations and ties by shared groups"}[self.mode])
         return "; ".join(parts)
@@ -515,6 +520,8 @@ def build_graph(session: Session, slice_: Slice) -> nx.Graph | nx.DiGraph:
 def graph_from_evidence(session: Session, resolved: ResolvedSlice, rows: list[EvidenceRow]) -> nx.Graph | nx.DiGraph:
     """Return the graph of already selected evidence rows (see ``build_graph``)."""
     s = resolved.slice
+    same_as = same_as_mapping(session, s.same_as)
+    rows = merge_rows(rows, same_as)
     directed_view = s.direction == "recorded"
     G: nx.Graph = nx.DiGraph() if directed_view else nx.Graph()
     arcs: dict[tuple[int, int], dict[str, Any]] = {}
@@ -548,7 +555,7 @@ def graph_from_evidence(session: Session, resolved: ResolvedSlice, rows: list[Ev
             attestation_ids=sorted(arc["attestation_ids"]), relation_ids=sorted(arc["relation_ids"]), kinds=sorted(arc["kinds"]),
             document_ids=sorted(arc["documents"]),
         )
-    for node in _node_set(session, resolved, rows, tied):
+    for node in merge_nodes(_node_set(session, resolved, rows, tied), same_as):
         G.add_node(node)
     return G
 
@@ -561,6 +568,8 @@ def graph_from_totals(session: Session, resolved: ResolvedSlice, totals: list[Sl
     documents are counted exactly (the union of its relations' documents when it holds several).
     """
     s = resolved.slice
+    same_as = same_as_mapping(session, s.same_as)
+    totals = merge_rows(totals, same_as)
     directed_view = s.direction == "recorded"
     tied = totals
     if s.direction == "reciprocal":
@@ -588,7 +597,7 @@ def graph_from_totals(session: Session, resolved: ResolvedSlice, totals: list[Sl
 
     G: nx.Graph = nx.DiGraph() if directed_view else nx.Graph()
     G.add_edges_from(edge(u, v, rows) for (u, v), rows in arcs.items())
-    G.add_nodes_from(_node_set(session, resolved, totals, tied))  # type: ignore[arg-type]
+    G.add_nodes_from(merge_nodes(_node_set(session, resolved, totals, tied), same_as))  # type: ignore[arg-type]
     return G
 
 

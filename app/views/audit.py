@@ -13,7 +13,7 @@ from datetime import date
 from fastapi import APIRouter, HTTPException, Request
 from fastapi.responses import HTMLResponse, RedirectResponse, Response
 
-from app.auth import AdminActor, CsrfChecked
+from app.auth import AdminActor, CsrfChecked, EditorActor
 from app.dates import DateError, interval_or_none
 from app.store.audit import AuditList, AuditRow, get_change, list_changes, redact_change
 from app.views.common import BadParameter, SessionDep, page_number, render, urls_for
@@ -80,12 +80,12 @@ _AUDIT = ("Every change, newest first, 100 to a page: when (UTC), who, what (cre
           "split, import, redact), the table and record key, a summary, and the record before and after as JSON. An "
           "import is one entry with its counts and the file's hash. Filters: `user` (the actor's name), `table` and "
           "`key` (one record's history: its own entries and the merges and splits that name it), `from` and `to` "
-          "(days, months or years, UTC), `page`. Entries cannot be edited.")
+          "(days, months or years, UTC), `page`. Entries cannot be edited. Editors and admins only (403 for readers).")
 
 
 @router.get("/audit", response_class=HTMLResponse, summary="Audit trail (page)",
             description=_AUDIT + " The same data in JSON: `/api/audit`.")
-def audit_page(request: Request, session: SessionDep, user: str | None = None, table: str | None = None,
+def audit_page(request: Request, session: SessionDep, _: EditorActor, user: str | None = None, table: str | None = None,
                key: str | None = None, page: str | None = None) -> Response:
     q = request.query_params
     view = audit_view(session=session, user=user, table=table, key=key, date_from=q.get("from"), date_to=q.get("to"), page=page)
@@ -94,7 +94,7 @@ def audit_page(request: Request, session: SessionDep, user: str | None = None, t
 
 @router.get("/api/audit", response_model=AuditPage, summary="Audit trail (JSON)",
             description=_AUDIT + " The page with the same data: `/audit`.")
-def audit_api(request: Request, session: SessionDep, user: str | None = None, table: str | None = None,
+def audit_api(request: Request, session: SessionDep, _: EditorActor, user: str | None = None, table: str | None = None,
               key: str | None = None, page: str | None = None) -> Response:
     q = request.query_params
     view = audit_view(session=session, user=user, table=table, key=key, date_from=q.get("from"), date_to=q.get("to"), page=page)
@@ -107,13 +107,13 @@ _ENTRY = ("One audit entry: when, who, what, the record, and the record before a
 
 @router.get("/audit/{entry_id}", response_class=HTMLResponse, summary="One audit entry (page)",
             description=_ENTRY + " The same data in JSON: `/api/audit/{entry_id}`.")
-def entry_page(request: Request, entry_id: int, session: SessionDep) -> Response:
+def entry_page(request: Request, entry_id: int, session: SessionDep, _: EditorActor) -> Response:
     return render(request, entry_view(session=session, entry_id=entry_id), template="audit_entry.html")
 
 
 @router.get("/api/audit/{entry_id}", response_model=AuditEntryPage, summary="One audit entry (JSON)",
             description=_ENTRY + " The page with the same data: `/audit/{entry_id}`.")
-def entry_api(request: Request, entry_id: int, session: SessionDep) -> Response:
+def entry_api(request: Request, entry_id: int, session: SessionDep, _: EditorActor) -> Response:
     return render(request, entry_view(session=session, entry_id=entry_id), template="audit_entry.html")
 
 

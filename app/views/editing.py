@@ -243,13 +243,13 @@ def show(request: Request, view: FormPage) -> Response:
 def _pair(path: str, summary: str, description: str, builder: Callable[..., FormPage]) -> None:
     """Register the form page and its JSON twin, both from ``builder(request, session, **path_params)``."""
 
-    def page(request: Request, session: SessionDep) -> Response:
+    def page(request: Request, session: SessionDep, _: EditorActor) -> Response:
         return show(request, builder(request, session, **request.path_params))
 
     router.add_api_route(path, page, methods=["GET"], response_class=HTMLResponse, summary=f"{summary} (page)",
-                         description=f"{description} The same form in JSON: `/api{path}`.", name=f"form:{path}")
+                         description=f"{description} Editors only. The same form in JSON: `/api{path}`.", name=f"form:{path}")
     router.add_api_route(f"/api{path}", page, methods=["GET"], response_model=FormPage, summary=f"{summary} (JSON)",
-                         description=f"{description} The page with the same form: `{path}`.", name=f"form-api:{path}")
+                         description=f"{description} Editors only. The page with the same form: `{path}`.", name=f"form-api:{path}")
 
 
 # --- persons ---------------------------------------------------------------------------------

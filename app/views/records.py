@@ -100,18 +100,18 @@ def merge_view(*, session: SessionDep, kept: str = "", absorbed: str = "") -> Me
 _MERGE = ("Merging two persons found to be one: `kept` and `absorbed` (keys) give a preview of what would move to "
           "`kept` (spellings, identifiers, facts, attestations, memberships), which relations would fuse with one of "
           "`kept` of the same kind and other end, and which relation between the two would become a self-loop. "
-          "Nothing changes until the preview is confirmed.")
+          "Nothing changes until the preview is confirmed. Editors only.")
 
 
 @router.get("/merge", response_class=HTMLResponse, summary="Merge two persons: pick and preview (page)",
             description=_MERGE + " The same data in JSON: `/api/merge`.")
-def merge_page(request: Request, session: SessionDep, kept: str = "", absorbed: str = "") -> Response:
+def merge_page(request: Request, session: SessionDep, _: EditorActor, kept: str = "", absorbed: str = "") -> Response:
     return render(request, merge_view(session=session, kept=kept, absorbed=absorbed), template="merge.html")
 
 
 @router.get("/api/merge", response_model=MergePage, summary="Merge two persons: preview (JSON)",
             description=_MERGE + " The page with the same data: `/merge`.")
-def merge_api(request: Request, session: SessionDep, kept: str = "", absorbed: str = "") -> Response:
+def merge_api(request: Request, session: SessionDep, _: EditorActor, kept: str = "", absorbed: str = "") -> Response:
     return render(request, merge_view(session=session, kept=kept, absorbed=absorbed), template="merge.html")
 
 
@@ -170,18 +170,18 @@ def split_view(*, session: SessionDep, key: str, new_key: str = "", new_name: st
 
 _SPLIT = ("Splitting a wrongly merged person: choose which attestations (of relations, memberships and facts) and which "
           "spellings go to a new person (key and name). Each attestation takes its tie along; a relation of the person "
-          "with themself becomes a tie between the two.")
+          "with themself becomes a tie between the two. Editors only.")
 
 
 @router.get("/persons/{key}/split", response_class=HTMLResponse, summary="Split a person (page)",
             description=_SPLIT + " The same form in JSON: `/api/persons/{key}/split`.")
-def split_page(request: Request, key: str, session: SessionDep) -> Response:
+def split_page(request: Request, key: str, session: SessionDep, _: EditorActor) -> Response:
     return render(request, split_view(session=session, key=key), template="split.html")
 
 
 @router.get("/api/persons/{key}/split", response_model=SplitPage, summary="Split a person (JSON)",
             description=_SPLIT + " The page with the same form: `/persons/{key}/split`.")
-def split_api(request: Request, key: str, session: SessionDep) -> Response:
+def split_api(request: Request, key: str, session: SessionDep, _: EditorActor) -> Response:
     return render(request, split_view(session=session, key=key), template="split.html")
 
 

@@ -1,0 +1,88 @@
+"""A shared instance under load: 8 readers browsing person pages and 2 editors adding attestations,
+against real uvicorn on 127.0.0.1, on the generated network of 20,000 persons / 200,000 attestations.
+
+A bounded loop (each client makes a fixed number of requests). Reported: throughput and median and
+95th-percentile latency of readers and editors, and every failed request. Target: readers' p95
+under 300 ms, no failed request. ``BENCH_SHARED_PERSONS`` runs it on a smaller network.
+"""
+
+from __future__ import annotations
+
+import os
+import random
+import re
+import statistics
+import threading
+import time
+
+import httpx
+from conftest import report
+from generate import generate
+from sqlalchemy import text
+
+from app.db import Database, upgrade
+from helpers import running_server
+
+PERSONS = int(os.environ.get("BENCH_SHARED_PERSONS", "20000"))
+ATTESTATIONS = PERSONS * 10
+READERS, EDITORS = 8, 2
+READS, EDITS = 60, 40  # requests per reader, per editor
+TARGET_READER_P95_MS = 300
+
+
+def _percentile(samples: list[float], share: float) -> float:
+    ordered = sorted(samples)
+    return round(ordered[min(len(ordered) - 1, int(share * len(ordered)))], 1)
+
+
+def test_readers_and_editors_at_once(cache_dir):
+    path = cache_dir / f"browse-{PERSONS}-{ATTESTATIONS}.db"  # the browse benchmark's network, shared
+    database = generate(path, persons=PERSONS, attestations=ATTESTATIONS) if not path.exists() else Database(f"sqlite:///{path}")
+    upgrade(database)
+    with database.read() as session:
+        keys = [k for (k,) in session.execute(text("SELECT key FROM person ORDER BY id"))]
+        relations = [r for (r,) in session.execute(text("SELECT id FROM relation ORDER BY id LIMIT 2000"))]
+        sources = [s for (s,) in session.execute(text("SELECT key FROM source ORDER BY id LIMIT 2000"))]
+    database.dispose()
+    latencies: dict[str, list[float]] = {"reader": [], "editor": []}
+    failures: list[str] = []
+    lock = threading.Lock()
+
+    def client_loop(role: str, number: int, base_url: str) -> None:
+        rng = random.Random(f"{role}{number}")
+        with httpx.Client(base_url=base_url, timeout=60) as client:
+            token = re.search(r'name="csrf_token" value="([^"]+)"', client.get("/new/person").text).group(1)
+            for n in range(READS if role == "reader" else EDITS):
+                started = time.perf_counter()
+                if role == "reader":
+                    answer = client.get(f"/persons/{rng.choice(keys)}")
+                    ok = answer.status_code == 200
+                else:
+                    answer = client.post(f"/relations/{rng.choice(relations)}/attestations", data={
+                        "csrf_token": token, "source": rng.choice(sources), "locus": f"bench {number}-{n}"})
+                    ok = answer.status_code == 303
+                elapsed = (time.perf_counter() - started) * 1000
+                with lock:
+                    latencies[role].append(elapsed)
+                    if not ok or "locked" in answer.text:
+                        failures.append(f"{role} {number}: {answer.status_code} {answer.text[:120]}")
+
+    with running_server(f"sqlite:///{path}", timeout=180) as base_url:
+        httpx.get(f"{base_url}/persons/{keys[0]}", timeout=60)  # first request: templates and caches
+        threads = [threading.Thread(target=client_loop, args=(role, n, base_url))
+                   for role, count in (("reader", READERS), ("editor", EDITORS)) for n in range(count)]
+        started = time.perf_counter()
+        for thread in threads:
+            thread.start()
+        for thread in threads:
+            thread.join()
+        seconds = time.perf_counter() - started
+    figures = {"persons": PERSONS, "attestations": ATTESTATIONS, "readers": READERS, "editors": EDITORS,
+               "seconds": round(seconds, 1), "failed_requests": len(failures), "failures": failures[:10],
+               "target": {"reader p95_ms": TARGET_READER_P95_MS}}
+    for role, samples in latencies.items():
+        figures[role] = {"requests": len(samples), "per_second": round(len(samples) / seconds, 1),
+                         "median_ms": round(statistics.median(samples), 1), "p95_ms": _percentile(samples, 0.95)}
+    figures["reader p95 target met"] = figures["reader"]["p95_ms"] < TARGET_READER_P95_MS
+    report(f"shared-{PERSONS}", figures)
+    assert not failures, failures[:5]

@@ -473,17 +473,25 @@ def _edit_membership_page(request: Request, membership_id: int, values: dict, pr
                     urls.edit_membership(membership_id), "Save", [Fieldset(None, fields)], cancel=urls.membership(membership_id))
 
 
-def _membership_values(session: SessionDep, membership_id: int) -> dict:
-    values = editing.get_membership_values(session=session, membership_id=int(membership_id))
+def _membership_values(session: SessionDep, membership_id: int | str) -> dict:
+    try:
+        number = int(membership_id)
+    except ValueError:
+        raise HTTPException(404, f"no membership with id {membership_id}") from None
+    values = editing.get_membership_values(session=session, membership_id=number)
     if values is None:
         raise HTTPException(404, f"no membership with id {membership_id}")
     return values
 
 
+def _edit_membership_form(request: Request, session: SessionDep, membership_id: str) -> FormPage:
+    values = _membership_values(session, membership_id)  # 404 unless a known id
+    return _edit_membership_page(request, int(membership_id), values, {})
+
+
 _pair("/memberships/{membership_id}/edit", "Edit a membership",
       "The role and recorded term of one membership, with its `version` (a stale save is refused with what changed).",
-      lambda request, session, membership_id: _edit_membership_page(
-          request, int(membership_id), _membership_values(session, membership_id), {}))
+      lambda request, session, membership_id: _edit_membership_form(request, session, membership_id))
 
 
 @router.post("/memberships/{membership_id}/edit", response_class=RedirectResponse, summary="Save a membership",

@@ -238,6 +238,23 @@ class PersonAlias(Base):
     person_id: Mapped[int] = mapped_column(_fk("person.id"), index=True)
 
 
+class PersonLink(Base):
+    """Two person records that may be one person, linked without merging ("possibly the same as")."""
+
+    __tablename__ = "person_link"
+    __table_args__ = (
+        UniqueConstraint("person_a_id", "person_b_id"),
+        CheckConstraint("person_a_id < person_b_id", name="pair_sorted"),
+    )
+
+    id: Mapped[int] = mapped_column(primary_key=True)
+    person_a_id: Mapped[int] = mapped_column(_fk("person.id"), index=True)
+    person_b_id: Mapped[int] = mapped_column(_fk("person.id"), index=True)
+    note: Mapped[str | None] = mapped_column(Text)
+    created_by: Mapped[str] = mapped_column(String(100))
+    created_at: Mapped[datetime] = mapped_column(DateTime)
+
+
 class PersonFact(Base):
     """An attested statement about one person (occupation, residence, birth, ...)."""
 

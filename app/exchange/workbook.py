@@ -188,19 +188,22 @@ class Sheet:
 
 
 class SheetPlan(NamedTuple):
-    """Which workbook file a sheet is, and which workbook column each of its columns is ("" = left out)."""
+    """Which workbook file a sheet is, which workbook column each of its columns is ("" = left out),
+    and values given once for every row (the document of an edge list, its relation kind)."""
 
     file: str
     columns: dict[str, str]
+    fixed: dict[str, str] = {}
 
 
 class RowFile:
     """The rows of one workbook file, made from a sheet as they are walked (``len`` is known at once)."""
 
-    def __init__(self, file: str, sheet: Sheet, columns: list[tuple[int, str]]):
+    def __init__(self, file: str, sheet: Sheet, columns: list[tuple[int, str]], fixed: dict[str, str] | None = None):
         self.file = file
         self.sheet = sheet
         self.columns = columns  # (index in the record, workbook column)
+        self.fixed = fixed or {}  # workbook column -> the value of every row
 
     def __len__(self) -> int:
         return self.sheet.count
@@ -212,7 +215,10 @@ class RowFile:
                 continue  # reported when the sheet was read
             if len(record) < width:
                 record = record + [""] * (width - len(record))
-            yield Row(file, line, {column: record[i] for i, column in columns})
+            values = {column: record[i] for i, column in columns}
+            if self.fixed:
+                values.update(self.fixed)
+            yield Row(file, line, values)
 
     def __getitem__(self, index: int) -> Row:
         for i, row in enumerate(self):
@@ -380,9 +386,10 @@ def tables_from_sheets(
             problems.append(Problem(sheet.label, 1, "(file)", f"a second sheet for {file} (the first is {tables[file].sheet.label})"))
             continue
         renames = plan.columns if plan else {}
+        fixed = {c: v for c, v in (plan.fixed if plan else {}).items() if v and c in FILES[file].columns}
         header = [renames.get(h, h) for h in sheet.header]
         spec = FILES[file]
-        missing = [c for c in spec.required if c not in header]
+        missing = [c for c in spec.required if c not in header and c not in fixed]
         if missing:
             problems.append(Problem(sheet.label, 1, ", ".join(missing),
                                     f"required column(s) missing; the header has {', '.join(sheet.header)}"))
@@ -394,8 +401,8 @@ def tables_from_sheets(
         unknown = [original for original, h in zip(sheet.header, header) if h and h not in spec.columns]
         if unknown:
             warnings.append(f"{sheet.label}: column(s) {', '.join(unknown)} are not part of the workbook and were ignored")
-        columns = [(i, h) for i, h in enumerate(header) if h in spec.columns]
-        tables[file] = RowFile(file, sheet, columns)
+        columns = [(i, h) for i, h in enumerate(header) if h in spec.columns and h not in fixed]
+        tables[file] = RowFile(file, sheet, columns, fixed)
     return tables, warnings
 
 

@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 from collections import Counter
+import dataclasses
 from dataclasses import dataclass
 from typing import Any
 
@@ -21,6 +22,7 @@ from app.store.persons import (
     person_id,
     search_persons,
 )
+from app.store.person_links import LinkedPerson, list_person_links
 from app.views.common import BadParameter, SessionDep, SliceDep, page_number, relations_only, render
 from app.views.ego import ego_panel
 
@@ -63,6 +65,8 @@ class PersonPage:
     """The ego network panel drawn around the person (filled in by the ego view; None when not drawn)."""
     relation_limit: int | None = RELATION_LIMIT
     """How many relations of each kind the page lists (those with most attestations); None: all. The JSON lists all."""
+    links: list[LinkedPerson] = dataclasses.field(default_factory=list)
+    """Other person records linked to this one as possibly the same person (not merged)."""
 
 
 def persons_view(*, session: Session, q: str = "", sort: str | None = None, page: str | None = None) -> PersonsPage:
@@ -92,7 +96,8 @@ def person_view(*, session: Session, key: str, slice_: Slice, relations: str | N
     if relations not in (None, "", "all"):
         raise BadParameter("relations", relations, "all (list every relation of each kind)")
     return PersonPage(person=person, slice=slice_, slice_description=slice_.describe(), sliced=sliced, ego=ego,
-                      relation_limit=None if relations == "all" else RELATION_LIMIT)
+                      relation_limit=None if relations == "all" else RELATION_LIMIT,
+                      links=list_person_links(session=session, key=key))
 
 
 def person_or_redirect(request: Request, session: Session, key: str, parameter: str = "key") -> PersonRef | Response:

@@ -4,7 +4,8 @@ Names are folded (case and accents dropped, ``app.names.fold``) and split into b
 short name key, so that only names sharing a key are compared (blocking, as record linkage
 does it, instead of comparing every pair). Each name gets two keys, one from the first
 letter of the first word and the start of the last word and one the other way round, so a
-variant in either part still meets its twin. Inside a block, rapidfuzz scores every pair
+variant in either part still meets its twin, and a third from its words in sorted order, so a
+name written surname first meets it too. Inside a block, rapidfuzz scores every pair
 (token sort ratio: word order does not matter) in compiled code. A pair is suggested when
 the score reaches ``MIN_SCORE`` and the two lives overlap, or when one of them has no dates.
 Names whose numbers differ (``Jost Brenner 1`` and ``Jost Brenner 2``) are told apart.
@@ -63,7 +64,9 @@ def block_keys(folded: str, extra: int = 0) -> list[str]:
     first, last = words[0], words[-1]
     if len(words) == 1:
         return [f"{first[:3 + extra]}#{numbers}"]
-    return [f"{first[:1 + extra]}|{last[:3 + extra]}#{numbers}", f"{first[:3 + extra]}|{last[:1 + extra]}#{numbers}"]
+    low, high = min(words), max(words)  # the same for any word order ("Oskamp Hinrik")
+    return [f"{first[:1 + extra]}|{last[:3 + extra]}#{numbers}", f"{first[:3 + extra]}|{last[:1 + extra]}#{numbers}",
+            f"~{low[:2 + extra]}|{high[:2 + extra]}#{numbers}"]
 
 
 def find_duplicates(new: Iterable[Candidate], stored: Iterable[Candidate], *, min_score: int = MIN_SCORE) -> list[Suggestion]:

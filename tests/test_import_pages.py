@@ -339,3 +339,16 @@ def test_an_upload_over_the_limit_is_refused_while_streaming(db_path, database, 
 def test_the_menu_links_the_import_page_for_editors(client):
     page = BeautifulSoup(client.get("/").text, "html.parser")
     assert page.select_one('.site-nav a[href="/import"]') is not None
+
+
+def test_progress_route_counts_rows_and_reloads_the_page_when_done(client, tmp_path):
+    persons = "key,name\n" + "".join(f"p-{i},Person {i}\n" for i in range(5000))
+    url = upload(client, [("persons.csv", persons.encode())])
+    client.get(url)  # starts the preview
+    state = settle(client, url)
+    progress = client.get("/api" + url + "/progress").json()["task"]
+    assert progress["done"] == progress["total"] == 5000
+    assert state["task"]["preview"]["counts"]["persons"]["added"] == 5000
+    partial = client.get(url + "/progress", headers={"HX-Request": "true"})
+    assert partial.headers.get("HX-Refresh") == "true"
+    assert client.get("/import/unknown-token/progress").status_code == 404

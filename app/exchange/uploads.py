@@ -473,15 +473,20 @@ def link_persons(decisions: list[Decision], *, actor: str) -> Callable:
     return after
 
 
-def confirm_import(upload: Upload, database: Database, *, fingerprint: str, decisions: list[Decision], actor: str,
-                   size_limit: int, progress=None) -> ImportReport:  # noqa: ANN001
-    """Import the upload for real, in one transaction; UploadError when it changed since its preview."""
+def check_unchanged(upload: Upload, database: Database, fingerprint: str) -> None:
+    """Raise UploadError when the files, the mapping or the data changed since the preview of ``fingerprint``."""
     if not upload.files_unchanged():
         raise UploadError("the uploaded files changed since the preview; upload the workbook again")
     version = data_version(database)
     if upload.fingerprint(version) != fingerprint:
         raise UploadError("the data or the column mapping changed since this preview (data version is now "
                           f"{version}); look at the new preview before you confirm")
+
+
+def confirm_import(upload: Upload, database: Database, *, fingerprint: str, decisions: list[Decision], actor: str,
+                   size_limit: int, progress=None) -> ImportReport:  # noqa: ANN001
+    """Import the upload for real, in one transaction; UploadError when it changed since its preview."""
+    check_unchanged(upload, database, fingerprint)
     reading = read_upload(upload, size_limit=size_limit)
     mappings = mapping_step(upload, reading, database)
     tables, warnings, labels = tables_of(upload, reading, mappings)

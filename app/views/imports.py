@@ -30,7 +30,7 @@ from app.exchange.uploads import (
     read_upload,
     uploads_root,
     Decision,
-    data_version,
+    check_unchanged,
 )
 from app.exchange.workbook import FILES, SheetPlan
 from app.views.common import BadParameter, is_api_request, render, urls_for
@@ -286,12 +286,7 @@ async def import_confirm(request: Request, token: str, actor: EditorActor, _: Cs
             decisions.append(Decision(new_key, other_key, choice))
     database, limit = request.app.state.database, _limit(request)
     try:  # refuse a changed upload at once, not in the thread
-        if not upload.files_unchanged():
-            raise UploadError("the uploaded files changed since the preview; upload the workbook again")
-        version = data_version(database)
-        if upload.fingerprint(version) != fingerprint:
-            raise UploadError("the data or the column mapping changed since this preview (data version is now "
-                              f"{version}); look at the new preview before you confirm")
+        check_unchanged(upload, database, fingerprint)
     except UploadError as error:
         raise HTTPException(409, str(error)) from error
 

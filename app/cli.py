@@ -15,6 +15,7 @@ from functools import wraps
 from pathlib import Path
 
 import click
+from tqdm import tqdm
 
 from app.config import Settings
 from app.db import Database, DatabaseError, check_schema, upgrade
@@ -81,7 +82,13 @@ def import_command(database: str | None, workbook: Path) -> None:
     """Import a workbook (a folder or .zip of CSV files): all rows, or nothing."""
     settings, db = _open(database)
     check_schema(db)
-    report = import_workbook(db, workbook, size_limit=settings.upload_limit_bytes, actor="cli")
+    with tqdm(desc="rows", unit=" rows", disable=None, leave=False, file=sys.stderr) as bar:
+
+        def progress(done: int, total: int) -> None:
+            bar.total = total
+            bar.update(done - bar.n)
+
+        report = import_workbook(db, workbook, size_limit=settings.upload_limit_bytes, actor="cli", progress=progress)
     for line in report.lines():
         click.echo(line)
     click.echo(f"data version {report.data_version}" + ("" if report.changed_anything else " (nothing changed)"))

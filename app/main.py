@@ -24,6 +24,7 @@ from app.views import ego as ego_views
 from app.views import editing as editing_views
 from app.views import groups as groups_views
 from app.views import home
+from app.views import imports as import_views
 from app.views import network as network_views
 from app.views import persons as persons_views
 from app.views import places as places_views
@@ -80,6 +81,8 @@ def create_app(settings: Settings) -> FastAPI:
     app.include_router(ego_views.router)
     app.include_router(network_views.router)
     app.include_router(twomode_views.router)
+    app.include_router(import_views.router)
+    app.add_middleware(import_views.UploadLimit, limit=settings.upload_limit_bytes)
 
     app.add_exception_handler(StarletteHTTPException, _http_error)
     app.add_exception_handler(RequestValidationError, _invalid_request)

@@ -241,17 +241,17 @@ class PersonAlias(Base):
 
 
 class PersonLink(Base):
-    """Two persons who may be the same, short of a merge; measures can treat them as one (``same_as=merge``)."""
+    """Two person records that may be one person, linked without merging ("possibly the same as")."""
 
     __tablename__ = "person_link"
     __table_args__ = (
-        UniqueConstraint("person_a", "person_b"),
-        CheckConstraint("person_a < person_b", name="pair_sorted"),
+        UniqueConstraint("person_a_id", "person_b_id"),
+        CheckConstraint("person_a_id < person_b_id", name="pair_sorted"),
     )
 
     id: Mapped[int] = mapped_column(primary_key=True)
-    person_a: Mapped[int] = mapped_column(_fk("person.id"), index=True)
-    person_b: Mapped[int] = mapped_column(_fk("person.id"), index=True)
+    person_a_id: Mapped[int] = mapped_column(_fk("person.id"), index=True)
+    person_b_id: Mapped[int] = mapped_column(_fk("person.id"), index=True)
     note: Mapped[str | None] = mapped_column(Text)
     created_by: Mapped[str] = mapped_column(String(100))
     created_at: Mapped[datetime] = mapped_column(DateTime)

@@ -351,3 +351,33 @@ def test_a_copy_of_a_copy_is_refused(database, tmp_path):
     world["sources.csv"].append({"key": "s-2cc", "repository": "rep-harwick", "collection": "col-vell", "copy_of": "s-2c"})
     problems = problems_of(database, write_workbook(tmp_path / "wb", world))
     assert problems == ["sources.csv:6: copy_of: 's-2c' is itself a copy; copy_of must name the original"]
+
+
+def test_a_damaged_zip_gets_our_own_message_and_changes_nothing(database, tmp_path):
+    import_workbook(database, write_workbook(tmp_path / "wb", small_world()), size_limit=LIMIT)
+    before = row_counts(database)
+    archive = tmp_path / "damaged.zip"
+    with zipfile.ZipFile(archive, "w", compression=zipfile.ZIP_DEFLATED) as out:
+        out.writestr("wb/persons.csv", "key,name\n" + "".join(f"p-n{i},Name {i}\n" for i in range(2000)))
+    data = bytearray(archive.read_bytes())
+    data[60:120] = b"\0" * 60  # inside the compressed data of persons.csv
+    archive.write_bytes(bytes(data))
+    problems = problems_of(database, archive)
+    assert len(problems) == 1 and "damaged.zip: wb/persons.csv" in problems[0] and "the zip is damaged" in problems[0]
+    assert row_counts(database) == before
+
+
+def test_bulk_writes_keep_keyed_updates_and_keyless_matches_across_many_rows(database, tmp_path):
+    """More rows than one bulk batch: a re-import matches every keyless row, and a keyed change updates one."""
+    world = small_world()
+    world["sources.csv"] += [{"key": f"s-bulk{i}", "kind": "letter", "date": "1710"} for i in range(25_000)]
+    world["relations.csv"] += [{"person": "p-anna", "other": "p-jost", "kind": "letter", "source": f"s-bulk{i}"}
+                               for i in range(25_000)]
+    folder = write_workbook(tmp_path / "wb", world)
+    first = import_workbook(database, folder, size_limit=LIMIT)
+    assert first.rows["relations.csv"]["added"] == 25_007
+    again = import_workbook(database, folder, size_limit=LIMIT)
+    assert not again.changed_anything and again.rows["relations.csv"]["unchanged"] == 25_007
+    world["relations.csv"][0]["certainty"] = "possible"
+    changed = import_workbook(database, write_workbook(tmp_path / "wb2", world), size_limit=LIMIT)
+    assert changed.rows["relations.csv"]["changed"] == 1 and changed.rows["relations.csv"]["added"] == 0

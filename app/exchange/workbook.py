@@ -15,13 +15,16 @@ import io
 import json
 import re
 import zipfile
+import zlib
+from contextlib import contextmanager
 from collections import Counter
 from dataclasses import dataclass, field
 from datetime import date, datetime, timezone
 from pathlib import Path, PurePosixPath
+from collections.abc import Callable, Iterator
 from typing import Any, NamedTuple
 
-from sqlalchemy import select, update
+from sqlalchemy import func, select, update
 from sqlalchemy.orm import Session, aliased
 
 from app.dates import DEFAULT_SETTINGS, DateError, DateSettings, check_calendar, interval_or_none
@@ -51,6 +54,7 @@ from app.models import (
 from app.names import fold
 
 MAX_PROBLEMS = 200
+Progress = Callable[[int, int], None]  # called with (rows done, rows in all) while an import runs
 KEY_RE = re.compile(r"^[A-Za-z0-9._:-]{1,100}$")
 TRUE_WORDS = {"yes", "y", "true", "1"}
 FALSE_WORDS = {"no", "n", "false", "0", ""}
@@ -117,16 +121,19 @@ class WorkbookError(Exception):
         super().__init__(f"{self.total} problem(s); nothing was imported:\n{shown}{more}")
 
 
-@dataclass
+@dataclass(slots=True)
 class Row:
     file: str
     line: int
     values: dict[str, str]
+    outcome: str | None = None  # added / changed / unchanged, once the import has seen the row
 
     def get(self, column: str) -> str | None:
         """Return the stripped cell, or None when the column is blank or absent."""
-        value = (self.values.get(column) or "").strip()
-        return value or None
+        value = self.values.get(column)
+        if not value:
+            return None
+        return value.strip() or None
 
     def has(self, column: str) -> bool:
         return column in self.values
@@ -162,7 +169,65 @@ class ImportReport:
 # --- reading files -----------------------------------------------------------------------
 
 
-def read_workbook(path: str | Path, *, size_limit: int) -> tuple[dict[str, list[Row]], list[Problem], list[str], str]:
+@dataclass
+class Sheet:
+    """One table as a file gives it, before it is matched to a workbook file: its header and records.
+
+    Every reader (CSV, a zip of CSV files, the sheets of an .xlsx) gives sheets; the records
+    are read again each time they are walked, so a large file is never held as rows twice.
+    """
+
+    name: str  # as the user named it: "persons.csv", "letters.csv", the sheet "persons" of an .xlsx
+    label: str  # where it is, for messages: "persons.csv", "book.xlsx, sheet persons"
+    header: list[str]
+    count: int  # records with at least one non-blank cell
+    walk: Callable[[], Iterator[tuple[int, list[str]]]]  # (line, cells) of each such record
+
+    def records(self) -> Iterator[tuple[int, list[str]]]:
+        return self.walk()
+
+
+class SheetPlan(NamedTuple):
+    """Which workbook file a sheet is, which workbook column each of its columns is ("" = left out),
+    and values given once for every row (the document of an edge list, its relation kind)."""
+
+    file: str
+    columns: dict[str, str]
+    fixed: dict[str, str] = {}
+
+
+class RowFile:
+    """The rows of one workbook file, made from a sheet as they are walked (``len`` is known at once)."""
+
+    def __init__(self, file: str, sheet: Sheet, columns: list[tuple[int, str]], fixed: dict[str, str] | None = None):
+        self.file = file
+        self.sheet = sheet
+        self.columns = columns  # (index in the record, workbook column)
+        self.fixed = fixed or {}  # workbook column -> the value of every row
+
+    def __len__(self) -> int:
+        return self.sheet.count
+
+    def __iter__(self) -> Iterator[Row]:
+        file, columns, width = self.file, self.columns, len(self.sheet.header)
+        for line, record in self.sheet.records():
+            if len(record) > width:
+                continue  # reported when the sheet was read
+            if len(record) < width:
+                record = record + [""] * (width - len(record))
+            values = {column: record[i] for i, column in columns}
+            if self.fixed:
+                values.update(self.fixed)
+            yield Row(file, line, values)
+
+    def __getitem__(self, index: int) -> Row:
+        for i, row in enumerate(self):
+            if i == index:
+                return row
+        raise IndexError(index)
+
+
+def read_workbook(path: str | Path, *, size_limit: int) -> tuple[dict[str, RowFile], list[Problem], list[str], str]:
     """Return the rows of every workbook file in a folder or .zip, the problems, warnings and a SHA-256.
 
     Files are decoded as UTF-8 (a byte-order mark is accepted); anything else is a problem.
@@ -173,20 +238,23 @@ def read_workbook(path: str | Path, *, size_limit: int) -> tuple[dict[str, list[
     raw, problems = _raw_files(path, size_limit)
     if problems:
         raise WorkbookError(problems)
-    digest = hashlib.sha256()
-    tables: dict[str, list[Row]] = {}
-    warnings: list[str] = []
-    for name in sorted(raw):
-        digest.update(name.encode() + b"\0" + raw[name] + b"\0")
-        if name not in FILES:
-            warnings.append(f"{name} is not a workbook file and was ignored (workbook files: {', '.join(FILES)})")
-            continue
-        rows = _parse_csv(name, raw[name], problems, warnings)
-        if rows is not None:
-            tables[name] = rows
+    sheets, digest = csv_sheets(raw, problems)
+    tables, warnings = tables_from_sheets(sheets, problems)
     if not tables and not problems:
         problems.append(Problem(str(path), 0, "(workbook)", f"no workbook files found; expected some of: {', '.join(FILES)}"))
-    return tables, problems, warnings, digest.hexdigest()
+    return tables, problems, warnings, digest
+
+
+def csv_sheets(raw: dict[str, bytes], problems: list[Problem]) -> tuple[list[Sheet], str]:
+    """Return a sheet for each CSV file (name -> bytes) and a SHA-256 of them all; bad files are problems."""
+    digest = hashlib.sha256()
+    sheets = []
+    for name in sorted(raw):
+        digest.update(name.encode() + b"\0" + raw[name] + b"\0")
+        sheet = csv_sheet(name, raw[name], problems)
+        if sheet is not None:
+            sheets.append(sheet)
+    return sheets, digest.hexdigest()
 
 
 def _raw_files(path: Path, size_limit: int) -> tuple[dict[str, bytes], list[Problem]]:
@@ -201,70 +269,141 @@ def _raw_files(path: Path, size_limit: int) -> tuple[dict[str, bytes], list[Prob
         return {}, [Problem(str(path), 0, "(path)", "not a folder or a .zip file of CSV files")]
     if path.stat().st_size > size_limit:
         return {}, [Problem(str(path), 0, "(size)", _too_big(path.stat().st_size, size_limit))]
-    with zipfile.ZipFile(path) as archive:
-        members = [m for m in archive.infolist() if not m.is_dir()]
-        for member in members:
-            parts = PurePosixPath(member.filename.replace("\\", "/")).parts
-            if member.filename.startswith(("/", "\\")) or ".." in parts or (parts and ":" in parts[0]):
-                problems.append(Problem(member.filename, 0, "(zip)", "path points outside the workbook folder; refused"))
-        total = sum(m.file_size for m in members)
-        if total > size_limit:
-            problems.append(Problem(str(path), 0, "(size)", _too_big(total, size_limit) + " when unpacked"))
-        if problems:
-            return {}, problems
-        csvs = [m for m in members if m.filename.lower().endswith(".csv") and "__MACOSX" not in m.filename]
-        folders = {PurePosixPath(m.filename).parent for m in csvs}
-        if len(folders) > 1:
-            return {}, [Problem(str(path), 0, "(zip)", "the CSV files must sit together in one folder of the zip")]
-        return {PurePosixPath(m.filename).name: archive.read(m) for m in csvs}, problems
+    return zip_members(path, size_limit, (".csv",))
+
+
+def zip_members(path: Path, size_limit: int, suffixes: tuple[str, ...]) -> tuple[dict[str, bytes], list[Problem]]:
+    """Return the files of a .zip ending in ``suffixes`` (name -> bytes), or the problems that refuse it.
+
+    A path outside the zip's folder, more than one folder, more unpacked bytes than ``size_limit``
+    and a damaged archive are refused with a message naming the zip (and the member).
+    """
+    problems: list[Problem] = []
+    try:
+        with zipfile.ZipFile(path) as archive:
+            members = [m for m in archive.infolist() if not m.is_dir()]
+            for member in members:
+                parts = PurePosixPath(member.filename.replace("\\", "/")).parts
+                if member.filename.startswith(("/", "\\")) or ".." in parts or (parts and ":" in parts[0]):
+                    problems.append(Problem(member.filename, 0, "(zip)", "path points outside the workbook folder; refused"))
+            total = sum(m.file_size for m in members)
+            if total > size_limit:
+                problems.append(Problem(path.name, 0, "(size)", _too_big(total, size_limit) + " when unpacked"))
+            if problems:
+                return {}, problems
+            wanted = [m for m in members if m.filename.lower().endswith(suffixes) and "__MACOSX" not in m.filename]
+            folders = {PurePosixPath(m.filename).parent for m in wanted}
+            if len(folders) > 1:
+                return {}, [Problem(path.name, 0, "(zip)", "the CSV files must sit together in one folder of the zip")]
+            files = {}
+            for member in wanted:
+                try:
+                    files[PurePosixPath(member.filename).name] = archive.read(member)
+                except (zipfile.BadZipFile, zlib.error, EOFError, OSError, NotImplementedError) as error:
+                    return {}, [Problem(f"{path.name}: {member.filename}", 0, "(zip)",
+                                        f"the zip is damaged and this file cannot be unpacked ({error.__class__.__name__}); "
+                                        "make the zip again")]
+            return files, problems
+    except (zipfile.BadZipFile, zlib.error, EOFError, OSError) as error:
+        return {}, [Problem(path.name, 0, "(zip)", f"not a readable .zip file ({error}); make the zip again")]
 
 
 def _too_big(size: int, limit: int) -> str:
     return f"{size / 1e6:.1f} MB is over the import size limit of {limit / 1e6:.0f} MB (setting ATTESTA_UPLOAD_LIMIT_MB)"
 
 
-def _parse_csv(name: str, data: bytes, problems: list[Problem], warnings: list[str]) -> list[Row] | None:
+def csv_sheet(name: str, data: bytes, problems: list[Problem], label: str | None = None) -> Sheet | None:
+    """Return the sheet of one CSV file, or None (with a problem) when it cannot be read at all."""
+    label = label or name
     try:
         text = data.decode("utf-8-sig")
     except UnicodeDecodeError as error:
         line = data[: error.start].count(b"\n") + 1
-        problems.append(Problem(name, line, "(encoding)", f"not UTF-8 text (byte 0x{data[error.start]:02x}); save the file as UTF-8"))
+        problems.append(Problem(label, line, "(encoding)",
+                                f"not UTF-8 text (byte 0x{data[error.start]:02x}); save the file as UTF-8"))
         return None
+    del data
     if not text.strip():
-        problems.append(Problem(name, 1, "(file)", f"empty file; expected a header row with {', '.join(FILES[name].columns)}"))
+        expected = f" with {', '.join(FILES[name].columns)}" if name in FILES else ""
+        problems.append(Problem(label, 1, "(file)", f"empty file; expected a header row{expected}"))
         return None
     reader = csv.reader(io.StringIO(text, newline=""))
     try:
         header = [h.strip() for h in next(reader)]
     except csv.Error as error:
-        problems.append(Problem(name, 1, "(file)", f"cannot read the header row: {error}"))
+        problems.append(Problem(label, 1, "(file)", f"cannot read the header row: {error}"))
         return None
-    spec = FILES[name]
-    missing = [c for c in spec.required if c not in header]
-    if missing:
-        problems.append(Problem(name, 1, ", ".join(missing), f"required column(s) missing; the header has {', '.join(header)}"))
-        return None
-    duplicated = sorted({h for h in header if header.count(h) > 1})
-    if duplicated:
-        problems.append(Problem(name, 1, ", ".join(duplicated), "column named twice in the header"))
-        return None
-    unknown = [h for h in header if h and h not in spec.columns]
-    if unknown:
-        warnings.append(f"{name}: column(s) {', '.join(unknown)} are not part of the workbook and were ignored")
-    rows: list[Row] = []
+
+    def walk() -> Iterator[tuple[int, list[str]]]:
+        records = csv.reader(io.StringIO(text, newline=""))
+        next(records)
+        try:
+            for record in records:
+                if any(record) and any(cell.strip() for cell in record):
+                    yield records.line_num, record
+        except csv.Error:
+            return  # reported when the sheet was read
+
+    count = 0
+    width = len(header)
     try:
         for record in reader:
-            if not any(cell.strip() for cell in record):
+            if not any(record) or not any(cell.strip() for cell in record):
                 continue
-            line = reader.line_num
-            if len(record) > len(header):
-                problems.append(Problem(name, line, "(row)", f"{len(record)} cells but the header has {len(header)} columns"))
-                continue
-            values = {h: record[i] if i < len(record) else "" for i, h in enumerate(header) if h in spec.columns}
-            rows.append(Row(name, line, values))
+            if len(record) > width:
+                problems.append(Problem(label, reader.line_num, "(row)", f"{len(record)} cells but the header has {width} columns"))
+            else:
+                count += 1
     except csv.Error as error:
-        problems.append(Problem(name, reader.line_num, "(row)", f"malformed CSV: {error}"))
-    return rows
+        problems.append(Problem(label, reader.line_num, "(row)", f"malformed CSV: {error}"))
+    return Sheet(name=name, label=label, header=header, count=count, walk=walk)
+
+
+def workbook_file_of(name: str) -> str | None:
+    """Return the workbook file a sheet's name stands for (``persons``, ``Persons.csv`` -> ``persons.csv``)."""
+    stem = name.strip().lower()
+    stem = stem[:-4] if stem.endswith(".csv") else stem
+    return f"{stem}.csv" if f"{stem}.csv" in FILES else None
+
+
+def tables_from_sheets(
+    sheets: list[Sheet], problems: list[Problem], plans: dict[str, SheetPlan] | None = None,
+) -> tuple[dict[str, RowFile], list[str]]:
+    """Return the workbook files of the sheets (with ``plans`` renaming sheets and columns) and warnings.
+
+    A sheet whose header lacks a required column, or names a column twice, is a problem. A
+    sheet that is no workbook file, and columns that are no workbook columns, are warnings.
+    """
+    tables: dict[str, RowFile] = {}
+    warnings: list[str] = []
+    for sheet in sheets:
+        plan = (plans or {}).get(sheet.name)
+        file = plan.file if plan else workbook_file_of(sheet.name)
+        if not file:
+            warnings.append(f"{sheet.label} is not a workbook file and was ignored (workbook files: {', '.join(FILES)})")
+            continue
+        if file in tables:
+            problems.append(Problem(sheet.label, 1, "(file)", f"a second sheet for {file} (the first is {tables[file].sheet.label})"))
+            continue
+        renames = plan.columns if plan else {}
+        fixed = {c: v for c, v in (plan.fixed if plan else {}).items() if v and c in FILES[file].columns}
+        header = [renames.get(h, h) for h in sheet.header]
+        spec = FILES[file]
+        missing = [c for c in spec.required if c not in header and c not in fixed]
+        if missing:
+            problems.append(Problem(sheet.label, 1, ", ".join(missing),
+                                    f"required column(s) missing; the header has {', '.join(sheet.header)}"))
+            continue
+        duplicated = sorted({h for h in header if h and header.count(h) > 1})
+        if duplicated:
+            problems.append(Problem(sheet.label, 1, ", ".join(duplicated), "column named twice in the header"))
+            continue
+        unknown = [original for original, h in zip(sheet.header, header) if h and h not in spec.columns]
+        if unknown:
+            warnings.append(f"{sheet.label}: column(s) {', '.join(unknown)} are not part of the workbook and were ignored")
+        columns = [(i, h) for i, h in enumerate(header) if h in spec.columns and h not in fixed]
+        tables[file] = RowFile(file, sheet, columns, fixed)
+    return tables, warnings
 
 
 # --- importing ---------------------------------------------------------------------------
@@ -277,6 +416,7 @@ def import_workbook(
     size_limit: int,
     date_settings: DateSettings = DEFAULT_SETTINGS,
     actor: str = "cli",
+    progress: Progress | None = None,
 ) -> ImportReport:
     """Import the workbook at ``path`` in one transaction and return what changed.
 
@@ -287,7 +427,7 @@ def import_workbook(
         raise WorkbookError(problems)
     return import_tables(
         database, tables, name=Path(path).name, sha256=digest, warnings=warnings,
-        date_settings=date_settings, actor=actor,
+        date_settings=date_settings, actor=actor, progress=progress,
     )
 
 
@@ -300,6 +440,9 @@ def import_tables(
     warnings: list[str] | None = None,
     date_settings: DateSettings = DEFAULT_SETTINGS,
     actor: str = "cli",
+    dry_run: bool = False,
+    progress: Progress | None = None,
+    after: Callable[[Session, ImportReport], None] | None = None,
 ) -> ImportReport:
     """Import rows already read (from a workbook, or converted from TEI or GraphML) in one transaction.
 
@@ -307,20 +450,49 @@ def import_tables(
     file and line it came from, so a problem points at the original file. Raises WorkbookError
     (nothing written) when any row has a problem. ``name`` and ``sha256`` describe the file
     for the one audit entry of the import.
+
+    ``dry_run`` runs the whole import and rolls it back: the report says what a real import
+    would add and change (the preview). ``progress`` is told how far the rows are. ``after``
+    runs in the same transaction once the rows are written (say, to record links between
+    persons the user asked for), so it too is all or nothing with the import.
     """
-    with database.write() as session:
-        importer = _Importer(session, date_settings)
+    with database.write() as session, _large_cache(session):
+        importer = _Importer(session, date_settings, progress)
         report = importer.run(tables)
         report.warnings[:0] = warnings or []
         report.sha256 = sha256
         if importer.problems:
             session.rollback()
             raise WorkbookError(importer.problems, importer.problem_count)
+        if dry_run:
+            report.data_version = session.scalar(select(DataVersion.version)) or 0
+            session.rollback()
+            return report
+        if after is not None:
+            after(session, report)
         if report.changed_anything:
             report.data_version = _record_import(session, report, name, actor)
         else:
             report.data_version = session.scalar(select(DataVersion.version)) or 0
     return report
+
+
+@contextmanager
+def _large_cache(session: Session) -> Iterator[None]:
+    """Give SQLite a page cache of 256 MB for the import (its 2 MB default makes bulk index inserts spill)."""
+    connection = session.connection()
+    if connection.dialect.name != "sqlite":
+        yield
+        return
+    before = connection.exec_driver_sql("PRAGMA cache_size").scalar()
+    connection.exec_driver_sql("PRAGMA cache_size = -262144")
+    try:
+        yield
+    finally:
+        try:
+            session.connection().exec_driver_sql(f"PRAGMA cache_size = {int(before)}")
+        except Exception:  # noqa: BLE001 - the connection is going back to the pool anyway
+            pass
 
 
 def _record_import(session: Session, report: ImportReport, name: str, actor: str) -> int:
@@ -339,6 +511,87 @@ def _record_import(session: Session, report: ImportReport, name: str, actor: str
     return session.scalar(select(DataVersion.version))
 
 
+class _PendingInserts:
+    """New rows held back and written in bulk (one executemany per table), parents before children.
+
+    Ids are handed out here (the write transaction holds the database's write lock, so nobody
+    else can take them), which lets a row refer to a record that is not written yet. The rows
+    are written when ``limit`` of them wait, before any read or update of a table that has
+    waiting rows, and at the end of every file.
+    """
+
+    ORDER = (Place, Repository, Collection, Person, PersonName, PersonIdentifier, Group, Source, RelationKind,
+             Relation, Membership, PersonFact, Attestation)
+
+    def __init__(self, session: Session, limit: int = 20_000):
+        self.session = session
+        self.limit = limit
+        self.tables = [model.__table__ for model in self.ORDER]
+        self.rows: dict[str, list[dict[str, Any]]] = {t.name: [] for t in self.tables}
+        self.first_new_id: dict[str, int] = {}
+        self.next_id: dict[str, int] = {}
+        for table in self.tables:
+            top = session.scalar(select(func.max(table.c.id))) or 0
+            self.first_new_id[table.name] = self.next_id[table.name] = top + 1
+        self.waiting = 0
+
+    def insert(self, table: Any, **values: Any) -> int:
+        """Queue a new row of ``table`` and return the id it will have."""
+        new_id = self.next_id[table.name]
+        self.next_id[table.name] = new_id + 1
+        self.add(table, id=new_id, **values)
+        return new_id
+
+    def add(self, table: Any, **values: Any) -> None:
+        """Queue a new row whose id nobody needs (a name variant, an identifier)."""
+        self.rows[table.name].append(values)
+        self.waiting += 1
+        if self.waiting >= self.limit:
+            self.flush()
+
+    def is_new(self, table: Any, record_id: int | None) -> bool:
+        """Return True when ``record_id`` was created by this import (so no stored value needs reading)."""
+        return record_id is not None and record_id >= self.first_new_id[table.name]
+
+    def before_reading(self, table: Any) -> None:
+        """Write what waits before ``table`` is read or updated, so the statement sees it."""
+        if self.rows[table.name]:
+            self.flush()
+
+    def flush(self) -> None:
+        """Write every waiting row: one executemany per table and set of columns, parents first.
+
+        The statements go straight to the driver (SQLAlchemy's per-row parameter handling cost
+        more than the insert itself); column defaults and type conversions (dates, booleans)
+        are applied here as SQLAlchemy would.
+        """
+        connection = self.session.connection()
+        dialect = connection.dialect
+        quote = dialect.identifier_preparer.quote
+        for table in self.tables:
+            rows = self.rows[table.name]
+            if not rows:
+                continue
+            by_columns: dict[tuple[str, ...], list[dict[str, Any]]] = {}
+            for row in rows:  # executemany needs the same columns in every row
+                by_columns.setdefault(tuple(row), []).append(row)
+            for names, batch in by_columns.items():
+                defaults = {c.name: c.default.arg for c in table.columns
+                            if c.name not in names and c.default is not None and c.default.is_scalar}
+                columns = [*names, *defaults]
+                processors = [table.c[name].type.bind_processor(dialect) for name in columns]
+                fill = tuple(defaults.values())
+                values = [(*row.values(), *fill) for row in batch]
+                if any(processors):
+                    values = [tuple(v if p is None or v is None else p(v) for p, v in zip(processors, row))
+                              for row in values]
+                sql = (f"INSERT INTO {quote(table.name)} ({', '.join(quote(c) for c in columns)}) "
+                       f"VALUES ({', '.join('?' * len(columns))})")
+                connection.exec_driver_sql(sql, values)
+            rows.clear()
+        self.waiting = 0
+
+
 class _Ref(NamedTuple):
     """A record known by key: its id (None while a row with problems declared it) and extra facts."""
 
@@ -349,14 +602,16 @@ class _Ref(NamedTuple):
 class _Importer:
     """Checks and writes the rows of one workbook inside one write transaction."""
 
-    def __init__(self, session: Session, date_settings: DateSettings):
+    def __init__(self, session: Session, date_settings: DateSettings, progress: Progress | None = None):
         self.session = session
         self.date_settings = date_settings
+        self.progress = progress
+        self.pending = _PendingInserts(session)
+        self.dates_read: dict[tuple[str, str | None], tuple[str, date | None, date | None]] = {}
         self.problems: list[Problem] = []
         self.problem_count = 0
         self.report = ImportReport()
         self.now = datetime.now(timezone.utc).replace(tzinfo=None)
-        self.outcomes: dict[tuple[str, int], str] = {}
         self.term_lines: dict[int, int] = {}  # membership id -> line that gave its term in this import
         self._load_existing()
 
@@ -373,16 +628,19 @@ class _Importer:
         return not self.problem_count
 
     def count(self, row: Row, outcome: str) -> None:
-        self.report.rows.setdefault(row.file, Counter({"added": 0, "changed": 0, "unchanged": 0}))[outcome] += 1
-        self.outcomes[(row.file, row.line)] = outcome
+        counts = self.report.rows.get(row.file)
+        if counts is None:
+            counts = self.report.rows[row.file] = Counter({"added": 0, "changed": 0, "unchanged": 0})
+        counts[outcome] += 1
+        row.outcome = outcome
 
     def count_as_changed(self, row: Row) -> None:
         """A row first found unchanged changed something after all (a new variant, a parent)."""
-        if self.outcomes.get((row.file, row.line)) == "unchanged":
+        if row.outcome == "unchanged":
             counts = self.report.rows[row.file]
             counts["unchanged"] -= 1
             counts["changed"] += 1
-            self.outcomes[(row.file, row.line)] = "changed"
+            row.outcome = "changed"
 
     def _load_existing(self) -> None:
         s = self.session
@@ -412,16 +670,23 @@ class _Importer:
         self.identifiers = {(sch, v): p for sch, v, p in s.execute(
             select(PersonIdentifier.scheme, PersonIdentifier.value, PersonIdentifier.person_id))}
         self.attestations_by_key: dict[str, tuple[int, str]] = {}
-        self.attestation_signatures: dict[tuple, int] = {}
+        self.attestation_signatures: dict[bytes, int] = {}
         self.deleted_matches = 0
         self.changed_sources: dict[int, Row] = {}
-        self.seen_keys: dict[tuple[str, str], int] = {}
-        self.signature_of: dict[int, tuple] = {}
-        for att in s.execute(select(Attestation)).scalars():
+        self.seen_keys: dict[str, dict[str, int]] = {}  # file -> key -> line
+        self.signature_of: dict[int, bytes] = {}
+        self.deleted_ids: set[int] = set()
+        table = Attestation.__table__
+        columns = [table.c.id, table.c.key, table.c.relation_id, table.c.membership_id, table.c.fact_id,
+                   table.c.deleted_at, *(table.c[f] for f in SIGNATURE_FIELDS)]
+        for att in s.execute(select(*columns)):
             target = _target_of(att)
+            signature = _signature(att, target)
             self.attestations_by_key[att.key] = (att.id, target[0])
-            self.attestation_signatures[_signature(att, target)] = att.id
-            self.signature_of[att.id] = _signature(att, target)
+            self.attestation_signatures[signature] = att.id
+            self.signature_of[att.id] = signature
+            if att.deleted_at is not None:
+                self.deleted_ids.add(att.id)
 
     # -- cell readers: each returns the parsed value or None, and records a problem --
 
@@ -435,7 +700,7 @@ class _Importer:
             self.problem(row, column, f"{value!r} is not a valid key: use letters, digits and . _ : - (at most 100)")
             return None
         if column == "key":
-            first = self.seen_keys.setdefault((row.file, value), row.line)
+            first = self.seen_keys.setdefault(row.file, {}).setdefault(value, row.line)
             if first != row.line:
                 self.problem(row, column, f"duplicate key {value!r} (first used on line {first})")
                 return None
@@ -493,12 +758,16 @@ class _Importer:
         text = row.get(column)
         if text is None:
             return None, None, None
+        known = self.dates_read.get((text, calendar))
+        if known is not None:  # a dataset repeats its dates many times
+            return known
         try:
             interval = interval_or_none(text, calendar or "gregorian", settings=self.date_settings)
         except DateError as error:
             self.problem(row, column, str(error))
             return text, None, None
-        return text, interval.earliest, interval.latest
+        read = self.dates_read[(text, calendar)] = (text, interval.earliest, interval.latest)
+        return read
 
     def ref(self, row: Row, column: str, known: dict[str, _Ref], what: str, *, required: bool = False) -> _Ref | None:
         value = row.get(column)
@@ -528,12 +797,13 @@ class _Importer:
         if not self.writing:
             known.setdefault(key, _Ref(None, extra))
             return None
+        table = model.__table__
         if ref is None:
-            new_id = self.session.execute(model.__table__.insert().values(key=key, **values).returning(model.__table__.c.id)).scalar_one()
+            new_id = self.pending.insert(table, key=key, **values)
             known[key] = _Ref(new_id, extra)
             self.count(row, "added")
             return new_id
-        table = model.__table__
+        self.pending.before_reading(table)
         current = self.session.execute(select(*[table.c[c] for c in values]).where(table.c.id == ref.id)).one()
         changes = {c: v for (c, v), old in zip(values.items(), current) if old != v}
         if changes:
@@ -558,10 +828,18 @@ class _Importer:
             "memberships.csv": self.membership, "facts.csv": self.fact,
         }
         self.pending_parents: list[tuple[Row, type, int | None, str, str, dict[str, _Ref], str]] = []
+        total = sum(len(tables.get(name, [])) for name in FILES)
+        done = 0
         for name in FILES:
             for row in tables.get(name, []):
                 handlers[name](row)
+                done += 1
+                if self.progress is not None and done % 2000 == 0:
+                    self.progress(done, total)
             self._resolve_pending(name)
+        self.pending.flush()
+        if self.progress is not None:
+            self.progress(total, total)
         if self.writing and self.changed_sources:
             self._refresh_undated_attestations()
         if self.deleted_matches:
@@ -630,13 +908,13 @@ class _Importer:
         for variant in [name, *variants]:
             if (person_id, variant) not in self.names:
                 self.names.add((person_id, variant))
-                self.session.execute(PersonName.__table__.insert().values(person_id=person_id, name=variant, normalized=fold(variant)))
+                self.pending.add(PersonName.__table__, person_id=person_id, name=variant, normalized=fold(variant))
                 added = True
         for scheme, value in identifiers:
             owner = self.identifiers.get((scheme, value))
             if owner is None:
                 self.identifiers[(scheme, value)] = person_id
-                self.session.execute(PersonIdentifier.__table__.insert().values(person_id=person_id, scheme=scheme, value=value))
+                self.pending.add(PersonIdentifier.__table__, person_id=person_id, scheme=scheme, value=value)
                 added = True
             elif owner != person_id:
                 self.problem(row, "identifiers", f"{scheme}:{value} already belongs to another person")
@@ -703,8 +981,13 @@ class _Importer:
         old = self.sources.get(key)
         source_id = self.upsert(row, Source, key, values, self.sources)
         if source_id is not None:
-            current = self.session.execute(select(Source.calendar, Source.earliest, Source.latest).where(Source.id == source_id)).one()
-            self.sources[key] = _Ref(source_id, tuple(current))
+            if old is None:  # added: what the file gives, or the column's default
+                current = (values.get("calendar") or "gregorian", values.get("earliest"), values.get("latest"))
+            else:
+                current = tuple(self.session.execute(
+                    select(Source.calendar, Source.earliest, Source.latest).where(Source.id == source_id)
+                ).one())
+            self.sources[key] = _Ref(source_id, current)
             if old is not None and old.extra != tuple(current):
                 self.changed_sources[source_id] = row
         if row.has("copy_of"):
@@ -729,6 +1012,7 @@ class _Importer:
 
     def _resolve_pending(self, file: str) -> None:
         """Set references to records of the same file (group parent, copy of, parent kind) once all exist."""
+        self.pending.flush()
         for row, model, record_id, column, cell, known, what in [p for p in self.pending_parents if p[0].file == file]:
             target = self.ref(row, cell, known, what)
             if target is not None and target.id is not None and target.id == record_id:
@@ -738,6 +1022,8 @@ class _Importer:
                 continue
             value = target.id if target else None
             table = model.__table__
+            if self.pending.is_new(table, record_id) and value is None:
+                continue  # a new record refers to nothing: already so
             if self.session.execute(select(table.c[column]).where(table.c.id == record_id)).scalar_one() != value:
                 self.session.execute(table.update().where(table.c.id == record_id).values({column: value}))
                 self.count_as_changed(row)
@@ -795,6 +1081,7 @@ class _Importer:
                 self.problem(row, "key", f"{key!r} is the key of a {kind.removesuffix('_id')} attestation, not of a row of {row.file}")
                 return
             columns = list(fields)
+            self.pending.before_reading(table)
             current = self.session.execute(select(*[table.c[c] for c in columns]).where(table.c.id == att_id)).one()
             changes = {c: fields[c] for c, old in zip(columns, current) if old != fields[c]}
             if changes:
@@ -813,14 +1100,12 @@ class _Importer:
         signature = _signature_of_fields(fields, target_column)
         match = self.attestation_signatures.get(signature)
         if match is not None and key is None:
-            if self.session.execute(select(Attestation.deleted_at).where(Attestation.id == match)).scalar() is not None:
+            if match in self.deleted_ids:
                 self.deleted_matches += 1
             self.count(row, "unchanged")
             return
         key = key or self._new_attestation_key(row)
-        new_id = self.session.execute(
-            table.insert().values(key=key, entered_at=self.now, **fields).returning(table.c.id)
-        ).scalar_one()
+        new_id = self.pending.insert(table, key=key, entered_at=self.now, **fields)
         self.attestations_by_key[key] = (new_id, target_column)
         self.attestation_signatures[signature] = new_id
         self.signature_of[new_id] = signature
@@ -852,10 +1137,9 @@ class _Importer:
             a, b, names = b, a, (names[1], names[0])
         relation_id = self.relation_ids.get((kind.id, a, b))
         if relation_id is None:
-            relation_id = self.session.execute(
-                Relation.__table__.insert().values(kind_id=kind.id, kind_directed=kind.extra, person_a_id=a, person_b_id=b)
-                .returning(Relation.__table__.c.id)
-            ).scalar_one()
+            relation_id = self.pending.insert(
+                Relation.__table__, kind_id=kind.id, kind_directed=kind.extra, person_a_id=a, person_b_id=b
+            )
             self.relation_ids[(kind.id, a, b)] = relation_id
             self.report.created["relations"] += 1
         fields.update(name_a_as_written=names[0], name_b_as_written=names[1])
@@ -878,9 +1162,7 @@ class _Importer:
         membership = self.memberships.get((person.id, group.id, role))
         table = Membership.__table__
         if membership is None:
-            new_id = self.session.execute(
-                table.insert().values(person_id=person.id, group_id=group.id, role=role, **term).returning(table.c.id)
-            ).scalar_one()
+            new_id = self.pending.insert(table, person_id=person.id, group_id=group.id, role=role, **term)
             membership = {"id": new_id, **term}
             self.memberships[(person.id, group.id, role)] = membership
             self.report.created["memberships"] += 1
@@ -897,6 +1179,7 @@ class _Importer:
             if given:
                 self.term_lines.setdefault(membership["id"], row.line)
             if any(membership[c] != v for c, v in given.items()):
+                self.pending.before_reading(table)
                 self.session.execute(table.update().where(table.c.id == membership["id"]).values(**given))
                 membership.update(given)
                 self._write_attestation(row, "membership_id", membership["id"], {**fields, "name_a_as_written": None, "name_b_as_written": None})
@@ -926,11 +1209,10 @@ class _Importer:
         fact_id = self.fact_ids.get(identity)
         if fact_id is None:
             table = PersonFact.__table__
-            fact_id = self.session.execute(
-                table.insert().values(person_id=person.id, kind=kind, value=value, place_id=place and place.id,
-                                      date_text=date_text, calendar=source_calendar, earliest=earliest, latest=latest)
-                .returning(table.c.id)
-            ).scalar_one()
+            fact_id = self.pending.insert(
+                table, person_id=person.id, kind=kind, value=value, place_id=place and place.id,
+                date_text=date_text, calendar=source_calendar, earliest=earliest, latest=latest,
+            )
             self.fact_ids[identity] = fact_id
             self.report.created["facts"] += 1
         fields.update(name_a_as_written=None, name_b_as_written=None)
@@ -960,7 +1242,7 @@ class _Importer:
                     update(Attestation).where(Attestation.id == att_id).values(earliest=interval.earliest, latest=interval.latest)
                 )
 
-def _target_of(att: Attestation) -> tuple[str, int]:
+def _target_of(att: Any) -> tuple[str, int]:
     if att.relation_id is not None:
         return "relation_id", att.relation_id
     if att.membership_id is not None:
@@ -972,12 +1254,17 @@ SIGNATURE_FIELDS = ("source_id", "locus", "evidence", "date_text", "calendar", "
                     "identification", "name_a_as_written", "name_b_as_written", "quote", "note")
 
 
-def _signature(att: Attestation, target: tuple[str, int]) -> tuple:
-    return (*target, *(getattr(att, f) for f in SIGNATURE_FIELDS))
+def _digest(cells: tuple) -> bytes:
+    """16 bytes that stand for an attestation's fields: a million of them fit in little memory."""
+    return hashlib.blake2b(repr(cells).encode(), digest_size=16).digest()
 
 
-def _signature_of_fields(fields: dict[str, Any], target_column: str) -> tuple:
-    return (target_column, fields[target_column], *(fields.get(f) for f in SIGNATURE_FIELDS))
+def _signature(att: Any, target: tuple[str, int]) -> bytes:
+    return _digest((*target, *(getattr(att, f) for f in SIGNATURE_FIELDS)))
+
+
+def _signature_of_fields(fields: dict[str, Any], target_column: str) -> bytes:
+    return _digest((target_column, fields[target_column], *(fields.get(f) for f in SIGNATURE_FIELDS)))
 
 
 # --- exporting ---------------------------------------------------------------------------

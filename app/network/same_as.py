@@ -34,7 +34,7 @@ def same_as_mapping(session: Session, same_as: str) -> dict[int, int]:
             p = parent[p]
         return p
 
-    for a, b in session.execute(select(PersonLink.person_a, PersonLink.person_b)):
+    for a, b in session.execute(select(PersonLink.person_a_id, PersonLink.person_b_id)):
         ra, rb = root(a), root(b)
         if ra != rb:
             parent[max(ra, rb)] = min(ra, rb)

@@ -181,14 +181,14 @@ def merge_persons(*, session: Session, actor: Actor, kept: str, absorbed: str) -
             session.flush()
             session.delete(rel)
         session.flush()
-    for link in session.scalars(select(PersonLink).where(or_(PersonLink.person_a == gone.id, PersonLink.person_b == gone.id))).all():
-        other = link.person_b if link.person_a == gone.id else link.person_a
-        exists = session.scalar(select(PersonLink.id).where(PersonLink.person_a == min(other, keep.id),
-                                                            PersonLink.person_b == max(other, keep.id)))
+    for link in session.scalars(select(PersonLink).where(or_(PersonLink.person_a_id == gone.id, PersonLink.person_b_id == gone.id))).all():
+        other = link.person_b_id if link.person_a_id == gone.id else link.person_a_id
+        exists = session.scalar(select(PersonLink.id).where(PersonLink.person_a_id == min(other, keep.id),
+                                                            PersonLink.person_b_id == max(other, keep.id)))
         if other == keep.id or exists:
             session.delete(link)
         else:
-            link.person_a, link.person_b = min(other, keep.id), max(other, keep.id)
+            link.person_a_id, link.person_b_id = min(other, keep.id), max(other, keep.id)
     session.execute(update(PersonAlias).where(PersonAlias.person_id == gone.id).values(person_id=keep.id))
     session.flush()
     session.delete(gone)
@@ -352,8 +352,8 @@ def list_person_links(*, session: Session, key: str) -> list[LinkedPerson]:
     """Return the persons linked to ``key`` as possibly the same, by name."""
     pid = session.scalar(select(Person.id).where(Person.key == key))
     found = []
-    for link in session.scalars(select(PersonLink).where(or_(PersonLink.person_a == pid, PersonLink.person_b == pid))):
-        other = session.get(Person, link.person_b if link.person_a == pid else link.person_a)
+    for link in session.scalars(select(PersonLink).where(or_(PersonLink.person_a_id == pid, PersonLink.person_b_id == pid))):
+        other = session.get(Person, link.person_b_id if link.person_a_id == pid else link.person_a_id)
         found.append(LinkedPerson(link.id, other.key, other.name, link.note, link.created_by, link.created_at))
     return sorted(found, key=lambda p: (p.name.casefold(), p.key))
 
@@ -367,11 +367,11 @@ def create_person_link(*, session: Session, actor: Actor, key: str, other: str, 
         problems["other"] = f"no person with key {other!r}" if (other or "").strip() else "the key of the other person is required"
     elif b.id == a.id:
         problems["other"] = "a person is the same as themself: pick another person"
-    elif session.scalar(select(PersonLink.id).where(PersonLink.person_a == min(a.id, b.id), PersonLink.person_b == max(a.id, b.id))):
+    elif session.scalar(select(PersonLink.id).where(PersonLink.person_a_id == min(a.id, b.id), PersonLink.person_b_id == max(a.id, b.id))):
         problems["other"] = f"{a.key} and {b.key} are linked already"
     if problems:
         raise EditError(problems)
-    link = PersonLink(person_a=min(a.id, b.id), person_b=max(a.id, b.id), note=(note or "").strip() or None,
+    link = PersonLink(person_a_id=min(a.id, b.id), person_b_id=max(a.id, b.id), note=(note or "").strip() or None,
                       created_by=actor.name, created_at=_now())
     session.add(link)
     session.flush()
@@ -386,7 +386,7 @@ def delete_person_link(*, session: Session, actor: Actor, link_id: int) -> None:
     link = session.get(PersonLink, link_id)
     if link is None:
         raise LookupError(f"no link with id {link_id}")
-    keys = sorted(session.scalars(select(Person.key).where(Person.id.in_([link.person_a, link.person_b]))))
+    keys = sorted(session.scalars(select(Person.key).where(Person.id.in_([link.person_a_id, link.person_b_id]))))
     before = {"persons": keys, "note": link.note}
     session.delete(link)
     session.flush()

@@ -174,6 +174,14 @@ class Urls:
         """Where the recompute button of a measure page posts to."""
         return self._path(f"/network/{_seg(view)}/recompute", slice, **extra)
 
+    def import_start(self) -> str:
+        """The upload page of workbooks (editors and admins)."""
+        return self._path("/import")
+
+    def import_upload(self, token: str, step: str = "") -> str:
+        """One upload: its mapping step, preview and result (``step``: progress, mapping, mapping.json, confirm)."""
+        return self._path(f"/import/{_seg(token)}" + (f"/{step}" if step else ""))
+
     def person_measures(self, key: str, slice: Slice | None = None) -> str:
         return self._path(f"/persons/{_seg(key)}/measures", slice)
 

@@ -73,3 +73,47 @@ def generate(path: Path, *, persons: int, attestations: int, seed: int = 1703) -
         session.execute(insert(Source), sources)
         session.execute(insert(Attestation), rows)
     return database
+
+
+def generate_workbook(folder: Path, *, persons: int, attestations: int, seed: int = 1703) -> Path:
+    """Write the network of :func:`generate` (same seed, same draws) as a workbook folder of CSV files.
+
+    Persons, repositories, collections, one source per letter and one relations.csv row per
+    attestation, keyed as in the generated database, so the import benchmark reads the scale dataset.
+    """
+    import csv
+
+    rng = random.Random(seed)
+    folder.mkdir(parents=True, exist_ok=True)
+
+    def write(name: str, header: list[str], rows) -> None:  # noqa: ANN001
+        with open(folder / name, "w", encoding="utf-8", newline="") as handle:
+            writer = csv.writer(handle, lineterminator="\n")
+            writer.writerow(header)
+            writer.writerows(rows)
+
+    write("repositories.csv", ["key", "name"], ([f"rep{i}", f"Archive {i}"] for i in range(1, 11)))
+    write("collections.csv", ["key", "repository", "name"],
+          ([f"col{i}", f"rep{1 + i % 10}", f"Papers {i}"] for i in range(1, 101)))
+    people = []
+    for i in range(1, persons + 1):
+        name = f"{rng.choice(FIRST)} {rng.choice(LAST)} {i}"
+        people.append([f"p{i}", name, "yes" if i % 97 == 0 else "no"])
+    write("persons.csv", ["key", "name", "unidentified"], people)
+    cumulative = list(itertools.accumulate(1.0 / (rank ** 0.8) for rank in range(1, persons + 1)))
+    order = list(range(1, persons + 1))
+    rng.shuffle(order)
+    sources, rows = [], []
+    start = date(1680, 1, 1)
+    for n in range(1, attestations + 1):
+        a, b = rng.choices(order, cum_weights=cumulative, k=2)
+        kind = "letter" if n % 10 else "friendship"
+        if kind == "friendship" and a > b:
+            a, b = b, a
+        day = start + timedelta(days=rng.randrange(60 * 365))
+        collection = 1 + rng.randrange(100)
+        sources.append([f"s{n}", f"rep{1 + collection % 10}", f"col{collection}", f"Ms {n}", "letter", day.isoformat()])
+        rows.append([f"a{n}", f"p{a}", f"p{b}", kind, f"s{n}", rng.choice(EVIDENCE), rng.choice(CERTAINTY)])
+    write("sources.csv", ["key", "repository", "collection", "reference", "kind", "date"], sources)
+    write("relations.csv", ["key", "person", "other", "kind", "source", "evidence", "certainty"], rows)
+    return folder

@@ -1,0 +1,562 @@
+"""Uploaded workbooks kept on the server under a random token until confirmed or expired.
+
+An upload is a folder of the files as sent (CSV files, a .zip, an .xlsx, a mapping .json) and
+a ``meta.json`` (who, when, the SHA-256 of the files, the column mapping chosen). Readers turn
+the files into sheets (to be mapped) or into ready workbook rows; another kind of file plugs in
+with :func:`register_reader`. The preview is the real import run in a transaction that is
+rolled back; the confirmation runs it again for real, in one transaction, and is refused when
+the files, the mapping or the data changed since the preview.
+"""
+
+from __future__ import annotations
+
+import hashlib
+import json
+import secrets
+import shutil
+import threading
+import time
+from collections.abc import Callable, Sequence
+from dataclasses import dataclass, field
+from pathlib import Path, PurePath
+from typing import Any, BinaryIO
+
+from sqlalchemy import select
+
+from app.db import Database
+from app.exchange.duplicates import Candidate, Suggestion, find_duplicates
+from app.exchange.mapping import SheetMapping, plans_from_json, suggest_mappings
+from app.exchange.workbook import (
+    FILES,
+    ImportReport,
+    Problem,
+    Row,
+    Sheet,
+    SheetPlan,
+    WorkbookError,
+    csv_sheet,
+    import_tables,
+    tables_from_sheets,
+    zip_members,
+)
+from app.exchange.xlsx import xlsx_sheets
+from app.models import DataVersion, Person, PersonName
+
+__all__ = [
+    "EXPIRY_SECONDS",
+    "Reading",
+    "Upload",
+    "UploadError",
+    "create_upload",
+    "get_upload",
+    "read_upload",
+    "register_reader",
+]
+
+EXPIRY_SECONDS = 2 * 3600  # an upload not confirmed within two hours is removed
+CHUNK = 1 << 20
+
+
+class UploadError(Exception):
+    """An upload that cannot be used (expired, changed, too large); the message says which and what to do."""
+
+
+@dataclass
+class Reading:
+    """What the readers made of an upload: sheets still to be mapped, rows already in workbook form."""
+
+    sheets: list[Sheet] = field(default_factory=list)
+    tables: dict[str, Sequence[Row]] = field(default_factory=dict)
+    problems: list[Problem] = field(default_factory=list)
+    warnings: list[str] = field(default_factory=list)
+    plans: dict[str, SheetPlan] = field(default_factory=dict)  # from a mapping .json among the files
+
+
+Reader = Callable[[Path, int, Reading], None]  # (file, size limit, reading to add sheets/tables/problems to)
+READERS: dict[str, Reader] = {}
+
+
+def register_reader(suffix: str, reader: Reader) -> None:
+    """Let uploads of files ending in ``suffix`` (".xml") be read by ``reader``."""
+    READERS[suffix.lower()] = reader
+
+
+def _read_csv(path: Path, size_limit: int, reading: Reading) -> None:
+    sheet = csv_sheet(path.name, path.read_bytes(), reading.problems)
+    if sheet is not None:
+        reading.sheets.append(sheet)
+
+
+def _read_zip(path: Path, size_limit: int, reading: Reading) -> None:
+    files, problems = zip_members(path, size_limit, (".csv",))
+    reading.problems.extend(problems)
+    for name in sorted(files):
+        sheet = csv_sheet(name, files[name], reading.problems, label=f"{path.name}: {name}")
+        if sheet is not None:
+            reading.sheets.append(sheet)
+
+
+def _read_xlsx(path: Path, size_limit: int, reading: Reading) -> None:
+    reading.sheets.extend(xlsx_sheets(path, reading.problems, reading.warnings))
+
+
+def _read_mapping(path: Path, size_limit: int, reading: Reading) -> None:
+    try:
+        reading.plans.update(plans_from_json(path.read_text(encoding="utf-8")))
+    except (ValueError, UnicodeDecodeError) as error:
+        reading.problems.append(Problem(path.name, 0, "(mapping)", str(error)))
+
+
+register_reader(".csv", _read_csv)
+register_reader(".zip", _read_zip)
+register_reader(".xlsx", _read_xlsx)
+register_reader(".json", _read_mapping)
+
+
+# --- storage -------------------------------------------------------------------------------
+
+
+@dataclass
+class Upload:
+    """One upload on the server: its token, folder, files and the mapping chosen for it."""
+
+    token: str
+    folder: Path
+    files: list[str]
+    sha256: str
+    created: float
+    actor: str
+    plans: dict[str, SheetPlan] | None = None  # None until the mapping step (or a mapping file) settled it
+
+    def save(self) -> None:
+        meta = {"files": self.files, "sha256": self.sha256, "created": self.created, "actor": self.actor,
+                "plans": None if self.plans is None else {k: p._asdict() for k, p in self.plans.items()}}
+        (self.folder / "meta.json").write_text(json.dumps(meta, sort_keys=True))
+
+    def fingerprint(self, data_version: int) -> str:
+        """A hash of the files, the mapping and the data version: what a preview was made of."""
+        plans = {k: p._asdict() for k, p in (self.plans or {}).items()}
+        text = json.dumps([self.sha256, plans, data_version], sort_keys=True)
+        return hashlib.sha256(text.encode()).hexdigest()[:32]
+
+    def files_unchanged(self) -> bool:
+        return _hash_files(self.folder, self.files) == self.sha256
+
+
+def uploads_root(database_url: str) -> Path:
+    """Where uploads wait: beside an SQLite file (``attesta.db-uploads/``), else in the temporary folder."""
+    if database_url.startswith("sqlite:///") and database_url != "sqlite:///:memory:":
+        return Path(database_url.removeprefix("sqlite:///") + "-uploads")
+    import tempfile
+
+    return Path(tempfile.gettempdir()) / "attesta-uploads"
+
+
+def create_upload(root: Path, files: list[tuple[str, BinaryIO]], *, actor: str, size_limit: int) -> Upload:
+    """Store the uploaded files under a new token; refuse (UploadError) past ``size_limit`` in all, nothing kept."""
+    _remove_expired(root)
+    if not files:
+        raise UploadError("no file was chosen: choose a .zip, CSV files or an .xlsx workbook")
+    token = secrets.token_urlsafe(18)
+    folder = root / token
+    folder.mkdir(parents=True)
+    names = []
+    total = 0
+    try:
+        for given, stream in files:
+            name = PurePath(given.replace("\\", "/")).name.strip()
+            suffix = Path(name).suffix.lower()
+            if not name or name in ("meta.json",) or suffix not in READERS:
+                raise UploadError(f"{given or '(no name)'}: not a file Attesta reads (accepted: "
+                                  f"{', '.join(sorted(READERS))})")
+            if name in names:
+                raise UploadError(f"{name} was chosen twice")
+            with open(folder / name, "wb") as out:
+                while chunk := stream.read(CHUNK):
+                    total += len(chunk)
+                    if total > size_limit:
+                        raise UploadError(f"the upload is over the size limit of {size_limit / 1e6:.0f} MB "
+                                          "(setting ATTESTA_UPLOAD_LIMIT_MB); nothing was kept")
+                    out.write(chunk)
+            names.append(name)
+    except BaseException:
+        shutil.rmtree(folder, ignore_errors=True)
+        raise
+    upload = Upload(token, folder, names, _hash_files(folder, names), time.time(), actor)
+    upload.save()
+    return upload
+
+
+def get_upload(root: Path, token: str) -> Upload:
+    """Return the upload of ``token``; UploadError when there is none (never made, imported or expired)."""
+    folder = root / token
+    meta_file = folder / "meta.json"
+    if not token.replace("-", "").replace("_", "").isalnum() or not meta_file.is_file():
+        raise UploadError("there is no such upload: it was imported already, expired (after "
+                          f"{EXPIRY_SECONDS // 3600} hours) or never made; upload the workbook again")
+    meta = json.loads(meta_file.read_text())
+    if time.time() - meta["created"] > EXPIRY_SECONDS:
+        shutil.rmtree(folder, ignore_errors=True)
+        raise UploadError(f"this upload expired (uploads are kept {EXPIRY_SECONDS // 3600} hours); upload the workbook again")
+    plans = None if meta["plans"] is None else {k: SheetPlan(p["file"], p["columns"], p.get("fixed") or {})
+                                                for k, p in meta["plans"].items()}
+    return Upload(token, folder, meta["files"], meta["sha256"], meta["created"], meta["actor"], plans)
+
+
+def delete_upload(upload: Upload) -> None:
+    shutil.rmtree(upload.folder, ignore_errors=True)
+
+
+def _remove_expired(root: Path) -> None:
+    if not root.is_dir():
+        return
+    now = time.time()
+    for folder in root.iterdir():
+        meta = folder / "meta.json"
+        try:
+            created = json.loads(meta.read_text())["created"] if meta.is_file() else folder.stat().st_mtime
+        except (OSError, ValueError, KeyError):
+            created = 0
+        if now - created > EXPIRY_SECONDS:
+            shutil.rmtree(folder, ignore_errors=True)
+
+
+def _hash_files(folder: Path, names: list[str]) -> str:
+    digest = hashlib.sha256()
+    for name in sorted(names):
+        digest.update(name.encode() + b"\0")
+        try:
+            with open(folder / name, "rb") as handle:
+                while chunk := handle.read(CHUNK):
+                    digest.update(chunk)
+        except OSError:
+            digest.update(b"(missing)")
+        digest.update(b"\0")
+    return digest.hexdigest()
+
+
+# --- reading, mapping, preview ---------------------------------------------------------------
+
+
+def read_upload(upload: Upload, *, size_limit: int) -> Reading:
+    """Read every file of the upload with the reader of its kind."""
+    reading = Reading()
+    for name in upload.files:
+        path = upload.folder / name
+        READERS[path.suffix.lower()](path, size_limit, reading)
+    return reading
+
+
+def stored_person_keys(database: Database) -> set[str]:
+    with database.read() as session:
+        return set(session.scalars(select(Person.key)))
+
+
+def mapping_step(upload: Upload, reading: Reading, database: Database) -> list[SheetMapping]:
+    """Return the suggestions for every sheet (the upload's own plans and a mapping file win)."""
+    person_keys = stored_person_keys(database)
+    for sheet in reading.sheets:
+        if sheet.name in ("persons.csv", "persons"):
+            person_keys.update(record[sheet.header.index("key")] for _, record in sheet.records()
+                               if "key" in sheet.header and len(record) > sheet.header.index("key"))
+    plans = {**reading.plans, **(upload.plans or {})}
+    return suggest_mappings(reading.sheets, person_keys, plans)
+
+
+def needs_mapping(upload: Upload, mappings: list[SheetMapping]) -> bool:
+    """True while some sheet needs the user's choice and no mapping was settled for the upload."""
+    return upload.plans is None and any(m.reasons for m in mappings)
+
+
+def tables_of(upload: Upload, reading: Reading, mappings: list[SheetMapping]) -> tuple[dict[str, Sequence[Row]], list[str], dict[str, str]]:
+    """Return the workbook rows of the upload, warnings, and the label of each workbook file (for messages)."""
+    plans = upload.plans if upload.plans is not None else {m.sheet: m.plan for m in mappings if m.file}
+    tables, warnings = tables_from_sheets(reading.sheets, reading.problems, plans)
+    labels = {file: rows.sheet.label for file, rows in tables.items()}
+    merged: dict[str, Sequence[Row]] = {**reading.tables, **tables}
+    return merged, warnings, labels
+
+
+def relabel(problems: list[Problem], labels: dict[str, str]) -> list[Problem]:
+    """Name each problem's file as the user knows it (``book.xlsx, sheet persons`` rather than persons.csv)."""
+    return [p._replace(file=labels.get(p.file, p.file)) for p in problems]
+
+
+def person_candidates(tables: dict[str, Sequence[Row]], database: Database) -> tuple[list[Candidate], list[Candidate]]:
+    """The persons of the upload and the stored persons, as candidates for the duplicate search."""
+    from app.dates import DateError, interval_or_none
+
+    def day(text: str | None, calendar: str, end: bool):  # noqa: ANN202
+        if not text:
+            return None
+        try:
+            interval = interval_or_none(text, calendar or "gregorian")
+        except DateError:
+            return None
+        return interval.latest if end else interval.earliest
+
+    new = []
+    for row in tables.get("persons.csv", []):
+        if not row.get("key") or not row.get("name"):
+            continue
+        calendar = row.get("calendar") or "gregorian"
+        variants = tuple(v.strip() for v in (row.get("variants") or "").split("|") if v.strip())
+        new.append(Candidate(row.get("key"), row.get("name"), variants, day(row.get("born"), calendar, False),
+                             day(row.get("died"), calendar, True)))
+    stored = []
+    with database.read() as session:
+        names: dict[int, list[str]] = {}
+        for person_id, name in session.execute(select(PersonName.person_id, PersonName.name)):
+            names.setdefault(person_id, []).append(name)
+        for pid, key, name, born, died in session.execute(
+            select(Person.id, Person.key, Person.name, Person.born_earliest, Person.died_latest)
+        ):
+            stored.append(Candidate(key, name, tuple(names.get(pid, ())), born, died, stored=True))
+    return new, stored
+
+
+def data_version(database: Database) -> int:
+    with database.read() as session:
+        return session.scalar(select(DataVersion.version)) or 0
+
+
+@dataclass
+class Preview:
+    """What confirming the upload would do, or why it cannot be imported."""
+
+    __pydantic_config__ = {"use_attribute_docstrings": True}
+
+    fingerprint: str
+    """Hash of the files, the mapping and the data version the preview was made of; the confirmation sends it back."""
+    data_version: int
+    """The data version the preview was made against."""
+    counts: dict[str, dict[str, int]]
+    """Per kind of record (persons, sources, relations, attestations, memberships, ...): added, changed, unchanged."""
+    files: dict[str, dict[str, int]]
+    """Per workbook file: rows added, changed, unchanged."""
+    problems: list[dict[str, Any]]
+    """Every validation problem (file, line, column, reason), the first 200."""
+    problem_count: int
+    """How many problems in all."""
+    warnings: list[str]
+    """What was ignored or assumed (unknown columns, formulas whose saved values were taken, ...)."""
+    duplicates: list[Suggestion]
+    """Likely duplicate persons, best first (at most 500)."""
+    duplicate_count: int
+    """How many likely duplicates in all."""
+    rows: int
+    """Rows in all files."""
+
+
+MAX_DUPLICATES = 500
+
+
+def counts_of(report: ImportReport) -> tuple[dict[str, dict[str, int]], dict[str, dict[str, int]]]:
+    """Return the counts per kind of record and per file of a (dry-run) import report."""
+    files = {name: {k: int(v) for k, v in c.items()} for name, c in report.rows.items()}
+
+    def of(name: str) -> dict[str, int]:
+        return files.get(name, {"added": 0, "changed": 0, "unchanged": 0})
+
+    attestations = {k: sum(of(n)[k] for n in ("relations.csv", "memberships.csv", "facts.csv"))
+                    for k in ("added", "changed", "unchanged")}
+    counts = {
+        "persons": of("persons.csv"),
+        "sources": of("sources.csv"),
+        "relations": {"added": int(report.created.get("relations", 0))},
+        "memberships": {"added": int(report.created.get("memberships", 0))},
+        "facts": {"added": int(report.created.get("facts", 0))},
+        "attestations": attestations,
+    }
+    for name in ("places.csv", "repositories.csv", "collections.csv", "groups.csv", "relation_kinds.csv"):
+        if name in files:
+            counts[name.removesuffix(".csv").replace("_", " ")] = files[name]
+    return counts, files
+
+
+def make_preview(upload: Upload, database: Database, *, size_limit: int, progress=None) -> Preview:  # noqa: ANN001
+    """Read, map and dry-run the upload; return what a confirmation would do and every problem."""
+    version = data_version(database)
+    reading = read_upload(upload, size_limit=size_limit)
+    mappings = mapping_step(upload, reading, database)
+    tables, warnings, labels = tables_of(upload, reading, mappings)
+    warnings = reading.warnings + warnings
+    problems = list(reading.problems)
+    report = ImportReport()
+    total_problems = len(problems)
+    rows = sum(len(t) for t in tables.values())
+    if not tables and not problems:
+        problems.append(Problem(", ".join(upload.files), 0, "(workbook)",
+                                f"no workbook files found; expected some of: {', '.join(FILES)}"))
+        total_problems = 1
+    if not problems:
+        try:
+            report = import_tables(database, tables, name=", ".join(upload.files), sha256=upload.sha256,
+                                   warnings=warnings, dry_run=True, progress=progress)
+            warnings = report.warnings
+        except WorkbookError as error:
+            problems, total_problems = error.problems, error.total
+    duplicates: list[Suggestion] = []
+    if not problems:
+        new, stored = person_candidates(tables, database)
+        duplicates = find_duplicates(new, stored)
+    counts, files = counts_of(report)
+    return Preview(
+        fingerprint=upload.fingerprint(version), data_version=version, counts=counts, files=files,
+        problems=[p._asdict() for p in relabel(problems, labels)], problem_count=total_problems,
+        warnings=warnings, duplicates=duplicates[:MAX_DUPLICATES], duplicate_count=len(duplicates), rows=rows,
+    )
+
+
+# --- confirmation ----------------------------------------------------------------------------
+
+
+DECISIONS = ("apart", "same", "link")
+
+
+@dataclass(frozen=True)
+class Decision:
+    """What the user said of one suggested pair: keep apart, the same person, or link as possibly the same."""
+
+    new_key: str
+    other_key: str
+    choice: str  # one of DECISIONS
+
+
+class _Remapped:
+    """Rows of one file with persons confirmed as the same mapped to the existing key (their own row left out)."""
+
+    def __init__(self, rows: Sequence[Row], file: str, same: dict[str, str]):
+        self.rows, self.file, self.same = rows, file, same
+
+    def __len__(self) -> int:
+        return len(self.rows)
+
+    def __iter__(self):  # noqa: ANN204
+        for row in self.rows:
+            if self.file == "persons.csv" and row.get("key") in self.same:
+                continue
+            changed = {c: self.same[v] for c in ("person", "other") if (v := row.get(c)) in self.same}
+            yield Row(row.file, row.line, {**row.values, **changed}) if changed else row
+
+
+def apply_decisions(tables: dict[str, Sequence[Row]], decisions: list[Decision]) -> dict[str, Sequence[Row]]:
+    """Return the tables with every person confirmed as the same as another mapped to that other's key."""
+    same = {d.new_key: d.other_key for d in decisions if d.choice == "same"}
+    for _ in range(len(same)):  # a chain a -> b -> c ends at c
+        same = {k: same.get(v, v) for k, v in same.items()}
+    same = {k: v for k, v in same.items() if k != v}
+    if not same:
+        return tables
+    return {file: _Remapped(rows, file, same) for file, rows in tables.items()}
+
+
+def link_persons(decisions: list[Decision], *, actor: str) -> Callable:
+    """Return the step that records the "possibly the same as" links inside the import's transaction."""
+    from app.store.audit import record_change
+    from app.store.person_links import create_person_link
+
+    links = [d for d in decisions if d.choice == "link"]
+
+    def after(session, report: ImportReport) -> None:  # noqa: ANN001
+        made = []
+        for d in links:
+            ids = dict(session.execute(select(Person.key, Person.id).where(Person.key.in_([d.new_key, d.other_key]))).all())
+            if len(ids) == 2 and create_person_link(session=session, a=ids[d.new_key], b=ids[d.other_key],
+                                                    note="suggested by the import as a likely duplicate", created_by=actor):
+                made.append([d.new_key, d.other_key])
+        if made:
+            record_change(session=session, actor=actor, action="link persons", table="person_link",
+                          after=made, summary=f"linked {len(made)} pair(s) of persons as possibly the same")
+            report.warnings.append(f"{len(made)} pair(s) of persons linked as possibly the same")
+
+    return after
+
+
+def check_unchanged(upload: Upload, database: Database, fingerprint: str) -> None:
+    """Raise UploadError when the files, the mapping or the data changed since the preview of ``fingerprint``."""
+    if not upload.files_unchanged():
+        raise UploadError("the uploaded files changed since the preview; upload the workbook again")
+    version = data_version(database)
+    if upload.fingerprint(version) != fingerprint:
+        raise UploadError("the data or the column mapping changed since this preview (data version is now "
+                          f"{version}); look at the new preview before you confirm")
+
+
+def confirm_import(upload: Upload, database: Database, *, fingerprint: str, decisions: list[Decision], actor: str,
+                   size_limit: int, progress=None) -> ImportReport:  # noqa: ANN001
+    """Import the upload for real, in one transaction; UploadError when it changed since its preview."""
+    check_unchanged(upload, database, fingerprint)
+    reading = read_upload(upload, size_limit=size_limit)
+    mappings = mapping_step(upload, reading, database)
+    tables, warnings, labels = tables_of(upload, reading, mappings)
+    if reading.problems:
+        raise WorkbookError(relabel(reading.problems, labels))
+    tables = apply_decisions(tables, decisions)
+    try:
+        return import_tables(database, tables, name=", ".join(upload.files), sha256=upload.sha256,
+                             warnings=reading.warnings + warnings, actor=actor, progress=progress,
+                             after=link_persons(decisions, actor=actor))
+    except WorkbookError as error:
+        raise WorkbookError(relabel(error.problems, labels), error.total) from error
+
+
+@dataclass
+class ImportTask:
+    """A preview or an import running in the background, and how far it is."""
+
+    __pydantic_config__ = {"use_attribute_docstrings": True}
+
+    token: str
+    """The upload's token."""
+    stage: str
+    """previewing, preview, importing, imported or failed."""
+    done: int = 0
+    """Rows checked (or written) so far."""
+    total: int = 0
+    """Rows in all."""
+    preview: Preview | None = None
+    """The preview, once made."""
+    lines: list[str] = field(default_factory=list)
+    """What the import did, once it is done."""
+    error: str | None = None
+    """Why it failed."""
+    data_version: int | None = None
+    """The data version after the import."""
+
+
+class ImportTasks:
+    """The previews and imports of one server process, each run in a thread of its own."""
+
+    def __init__(self) -> None:
+        self.tasks: dict[str, ImportTask] = {}
+        self.lock = threading.Lock()
+
+    def get(self, token: str) -> ImportTask | None:
+        with self.lock:
+            return self.tasks.get(token)
+
+    def start(self, token: str, stage: str, work: Callable[[ImportTask, Callable[[int, int], None]], None]) -> ImportTask:
+        """Run ``work(task, progress)`` in a thread; a failure is kept as the task's error."""
+        task = ImportTask(token=token, stage=stage)
+        with self.lock:
+            running = self.tasks.get(token)
+            if running is not None and running.stage in ("previewing", "importing"):
+                return running
+            self.tasks[token] = task
+
+        def progress(done: int, total: int) -> None:
+            task.done, task.total = done, total
+
+        def run() -> None:
+            try:
+                work(task, progress)
+            except (WorkbookError, UploadError) as error:
+                task.error = str(error)
+                task.stage = "failed"
+            except Exception as error:  # noqa: BLE001 - shown on the page rather than lost in a thread
+                task.error = f"the import stopped with an error: {error}"
+                task.stage = "failed"
+
+        threading.Thread(target=run, name=f"import-{token[:8]}", daemon=True).start()
+        return task

@@ -1,0 +1,64 @@
+"""Importing in a real headless Chromium served by a real uvicorn: problems, fix, preview, confirm, find."""
+
+from __future__ import annotations
+
+from pathlib import Path
+
+import pytest
+from playwright.sync_api import Browser, expect, sync_playwright
+
+from app.config import database_url
+from conftest import ARTIFACTS, chromium_path
+from helpers import running_server
+from test_browser_home import CHROMIUM_ARGS, open_page
+from tests.workbooks import small_world, write_workbook
+
+pytestmark = pytest.mark.browser
+
+
+@pytest.fixture(scope="module")
+def browser():
+    with sync_playwright() as playwright:
+        chromium = playwright.chromium.launch(executable_path=chromium_path(), args=CHROMIUM_ARGS)
+        yield chromium
+        chromium.close()
+
+
+def test_upload_with_two_errors_fix_preview_confirm_and_find(browser: Browser, db_path: Path, database, tmp_path: Path):
+    ARTIFACTS.mkdir(exist_ok=True)
+    world = small_world()
+    world["persons.csv"].append({"key": "p-greet", "name": "Greet Tessel", "born": "about 1690"})  # line 6
+    world["relations.csv"][1]["kind"] = "lettre"  # line 3
+    broken = write_workbook(tmp_path / "broken", world)
+    with running_server(database_url(db_path)) as base_url:
+        page, outside = open_page(browser, base_url)
+        page.goto(f"{base_url}/")
+        page.locator(".site-nav").get_by_role("link", name="Import").click()
+        expect(page).to_have_url(f"{base_url}/import")
+        page.get_by_label("Files").set_input_files(sorted(str(p) for p in broken.iterdir()))
+        page.get_by_role("button", name="Upload and preview").click()
+
+        problems = page.locator("table.problems tr.problem")
+        expect(problems).to_have_count(2, timeout=20_000)
+        expect(page.locator("#problems-heading")).to_contain_text("2 problems")
+        seen = {(row.locator(".file").inner_text(), row.locator(".line").inner_text(), row.locator(".column").inner_text())
+                for row in problems.all()}
+        assert seen == {("persons.csv", "6", "born"), ("relations.csv", "3", "kind")}
+        page.screenshot(path=str(ARTIFACTS / "import-problems.png"), full_page=True)
+
+        world["persons.csv"][-1]["born"] = "1690~"
+        world["relations.csv"][1]["kind"] = "letter"
+        fixed = write_workbook(tmp_path / "fixed", world)
+        page.get_by_role("link", name="Upload another workbook").click()
+        page.get_by_label("Files").set_input_files(sorted(str(p) for p in fixed.iterdir()))
+        page.get_by_role("button", name="Upload and preview").click()
+
+        expect(page.locator("#preview-heading")).to_be_visible(timeout=20_000)
+        expect(page.locator('tr[data-kind="persons"] .added')).to_have_text("5")
+        page.screenshot(path=str(ARTIFACTS / "import-preview.png"), full_page=True)
+        page.get_by_role("button", name="Confirm the import").click()
+        expect(page.locator(".import-status .done")).to_contain_text("Imported", timeout=30_000)
+
+        page.goto(f"{base_url}/persons?q=Greet")
+        expect(page.locator("#person-rows tbody tr").first).to_contain_text("Greet Tessel")
+        assert outside == []

@@ -47,6 +47,21 @@ ensure_chromium() {
   fi
 }
 
+ensure_postgresql() {
+  if ls /usr/lib/postgresql/*/bin/initdb >/dev/null 2>&1 || command -v initdb >/dev/null 2>&1; then return; fi
+  local sudo=""
+  if [ "$(id -u)" != 0 ]; then
+    if command -v sudo >/dev/null 2>&1 && sudo -n true 2>/dev/null; then sudo="sudo"; else sudo="none"; fi
+  fi
+  if [ "$sudo" != none ] && command -v apt-get >/dev/null 2>&1; then
+    echo "installing Debian's postgresql for the tests on PostgreSQL ..."
+    $sudo apt-get update -qq
+    DEBIAN_FRONTEND=noninteractive $sudo apt-get install -y -qq postgresql >/dev/null
+  else
+    echo "WARNING: postgresql is not installed and cannot be installed here; tests on PostgreSQL will be skipped" >&2
+  fi
+}
+
 command=${1:-}
 shift || true
 case "$command" in
@@ -60,6 +75,7 @@ case "$command" in
   test)
     setup_venv
     ensure_chromium
+    ensure_postgresql
     exec .venv/bin/python -m pytest "$@"
     ;;
   bench)

@@ -17,6 +17,7 @@ from pathlib import Path
 import click
 from tqdm import tqdm
 
+from app.backup import backup_database, is_newest, restore_database
 from app.config import Settings
 from app.db import Database, DatabaseError, check_schema, upgrade
 from app.exchange.workbook import WorkbookError, export_workbook, import_workbook
@@ -135,6 +136,32 @@ def demo(database: str | None, replace: bool) -> None:
     click.echo(f"demo database written to {target}")
     for line in report.lines():
         click.echo(line)
+
+
+@main.command()
+@db_option
+@click.argument("target", type=click.Path(path_type=Path))
+@reports_problems
+def backup(database: str | None, target: Path) -> None:
+    """Write a checked, consistent copy of the database while it may be in use (a file, or a folder)."""
+    settings = Settings.from_env(database)
+    info = backup_database(settings.database_url, target, busy_timeout_ms=settings.busy_timeout_ms)
+    click.echo(f"backup written to {info.describe()}")
+
+
+@main.command()
+@db_option
+@click.argument("backup_file", metavar="BACKUP", type=click.Path(path_type=Path))
+@reports_problems
+def restore(database: str | None, backup_file: Path) -> None:
+    """Replace the database by a checked backup; refused while a server has the database open."""
+    settings = Settings.from_env(database)
+    info, saved = restore_database(settings.database_url, backup_file, busy_timeout_ms=settings.busy_timeout_ms)
+    if saved is not None:
+        click.echo(f"the database as it was is saved in {saved}")
+    click.echo(f"restored {info.describe()}")
+    if not is_newest(info):
+        click.echo("the backup has an older schema: run `attesta init` to upgrade it before serving")
 
 
 @main.command()

@@ -1,9 +1,15 @@
-"""Engine, sessions and migrations.
+"""Engine, sessions and migrations, on SQLite or PostgreSQL.
 
 SQLite is opened with WAL, foreign keys on and a busy timeout. Python's sqlite3 module
 would otherwise begin transactions on its own and late; we take control and begin every
 write transaction with ``BEGIN IMMEDIATE`` so two writers queue at the start instead of
 failing half-way with "database is locked".
+
+PostgreSQL gets the same rules: every write transaction first takes one transaction-level
+advisory lock (writers queue at the start, as with ``BEGIN IMMEDIATE``, waiting at most the
+busy timeout), and runs at READ COMMITTED so it sees what the writer before it committed;
+read sessions run at REPEATABLE READ, so the queries of one page see one state of the data,
+as an SQLite read transaction does. ``fold()`` is a SQL function made by a migration there.
 """
 
 from __future__ import annotations
@@ -37,10 +43,16 @@ class SchemaError(DatabaseError):
     """The database is missing its tables, or was made by a newer Attesta."""
 
 
+# The key of the advisory lock every PostgreSQL write transaction holds ("attesta" in ASCII).
+WRITE_LOCK_KEY = 0x617474657374
+
+
 def make_engine(url: str, *, busy_timeout_ms: int = 10_000) -> Engine:
     """Return an engine for ``url``; SQLite files get WAL, foreign keys and IMMEDIATE writes."""
+    if url.startswith("postgresql"):
+        return _postgresql_engine(url, busy_timeout_ms=busy_timeout_ms)
     if not url.startswith("sqlite"):
-        return create_engine(url, pool_pre_ping=True)
+        raise DatabaseError(f"not a database Attesta can use: {url.split('://', 1)[0]}:// (give an SQLite file path or a postgresql:// URL)")
     path = url.split("///", 1)[-1]
     if path and path != ":memory:" and not Path(path).parent.is_dir():
         raise DatabaseError(f"no such folder for the database file: {Path(path).parent}")
@@ -66,13 +78,29 @@ def make_engine(url: str, *, busy_timeout_ms: int = 10_000) -> Engine:
     return engine
 
 
+def _postgresql_engine(url: str, *, busy_timeout_ms: int) -> Engine:
+    """Return a PostgreSQL engine whose write transactions queue on one advisory lock."""
+    engine = create_engine(url, pool_pre_ping=True, isolation_level="READ COMMITTED")
+
+    @event.listens_for(engine, "begin")
+    def _on_begin(connection):  # noqa: ANN001
+        if connection.get_execution_options().get("attesta_write", False):
+            connection.exec_driver_sql(f"SET LOCAL lock_timeout = {int(busy_timeout_ms)}")
+            connection.exec_driver_sql(f"SELECT pg_advisory_xact_lock({WRITE_LOCK_KEY})")
+
+    return engine
+
+
 class Database:
     """One database: an engine and the two kinds of session (read and write)."""
 
     def __init__(self, url: str, *, busy_timeout_ms: int = 10_000):
         self.url = url
         self.engine = make_engine(url, busy_timeout_ms=busy_timeout_ms)
-        self._reader = sessionmaker(self.engine, expire_on_commit=False)
+        reading = self.engine
+        if self.engine.dialect.name == "postgresql":  # one snapshot per read session, as on SQLite
+            reading = self.engine.execution_options(isolation_level="REPEATABLE READ")
+        self._reader = sessionmaker(reading, expire_on_commit=False)
         self._writer = sessionmaker(
             self.engine.execution_options(attesta_write=True), expire_on_commit=False
         )
@@ -92,7 +120,7 @@ class Database:
             session.commit()
         except OperationalError as error:
             session.rollback()
-            if "locked" in str(error.orig) or "busy" in str(error.orig):
+            if any(word in str(error.orig) for word in ("locked", "busy", "lock timeout")):
                 raise DatabaseBusy(
                     "the database is locked by another process (an import or a backup?); "
                     "nothing was changed, try again when it has finished"

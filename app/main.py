@@ -15,6 +15,7 @@ from fastapi.responses import Response
 from fastapi.staticfiles import StaticFiles
 from starlette.exceptions import HTTPException as StarletteHTTPException
 
+from app.backup import serving_lock
 from app.config import Settings
 from app.db import Database, DatabaseError, check_schema
 from app.network.jobs import Worker
@@ -56,10 +57,11 @@ def create_app(settings: Settings) -> FastAPI:
 
     @asynccontextmanager
     async def lifespan(_app: FastAPI) -> AsyncIterator[None]:
-        worker.start()  # requeues jobs a killed server left running
-        yield
-        worker.stop()
-        database.dispose()
+        with serving_lock(settings.database_url):  # `attesta restore` refuses while it is held
+            worker.start()  # requeues jobs a killed server left running
+            yield
+            worker.stop()
+            database.dispose()
 
     # The interactive API pages would load their scripts from a CDN; the site makes no
     # outside request of any kind, so only the OpenAPI document itself is served.

@@ -1,4 +1,12 @@
-"""Shared fixtures: every test gets a fresh SQLite file migrated by Alembic, never a mock."""
+"""Shared fixtures: every test gets a fresh database migrated by Alembic, never a mock.
+
+By default that is an SQLite file. A module marked ``pytestmark = pytest.mark.both_databases``
+runs each test that uses ``database`` (or ``db_url``, ``settings``, ``database_urls``,
+``module_database_urls``) twice: on SQLite and on a real PostgreSQL server started once per
+session (tests/postgres.py). ``@pytest.mark.sqlite_only`` keeps one test of such a module on
+SQLite (PRAGMAs, file locks). Without PostgreSQL's binaries the PostgreSQL runs are skipped
+loudly, except under ``CI``, where they fail.
+"""
 
 from __future__ import annotations
 
@@ -10,29 +18,126 @@ import pytest
 
 from app.config import Settings, database_url
 from app.db import Database, upgrade
+from tests.postgres import PostgresServer, postgres_bin_dir
 
 ROOT = Path(__file__).resolve().parent.parent
 DEMO_WORKBOOK = ROOT / "sample_data" / "demo"
 ARTIFACTS = ROOT / "test-artifacts"
 
 
+DATABASE_KINDS = ("sqlite", "postgresql")
+
+
+def pytest_generate_tests(metafunc):  # noqa: ANN001
+    """Run the tests of a ``both_databases`` module on SQLite and on PostgreSQL."""
+    definition = metafunc.definition
+    if "db_kind" not in metafunc.fixturenames or definition.get_closest_marker("sqlite_only"):
+        return
+    if definition.get_closest_marker("both_databases"):
+        metafunc.parametrize("db_kind", DATABASE_KINDS, indirect=True, scope="module")
+
+
+@pytest.fixture(scope="module")
+def db_kind(request) -> str:  # noqa: ANN001
+    """Which database the test runs on: "sqlite", or "postgresql" in a ``both_databases`` module."""
+    return getattr(request, "param", "sqlite")
+
+
+@pytest.fixture(scope="session")
+def postgres():
+    """One real PostgreSQL server on a loopback port for the whole session (tests/postgres.py)."""
+    bin_dir = postgres_bin_dir()
+    if bin_dir is None:
+        message = "PostgreSQL is not installed (apt-get install postgresql, or run ./run.sh test)"
+        if os.environ.get("CI"):
+            pytest.fail(f"{message}: CI must test PostgreSQL")
+        pytest.skip(f"{message}: NOT tested on PostgreSQL")
+    server = PostgresServer(bin_dir).start()
+    try:
+        server.create_template(_migrate)
+        yield server
+    finally:
+        server.stop()
+
+
+def _migrate(url: str) -> None:
+    db = Database(url)
+    try:
+        upgrade(db)
+    finally:
+        db.dispose()
+
+
+class DatabaseUrls:
+    """Hands out fresh migrated databases of one kind and gives them back at the end."""
+
+    def __init__(self, kind: str, folder: Path, request):  # noqa: ANN001
+        self.kind = kind
+        self.folder = folder
+        self.server: PostgresServer | None = request.getfixturevalue("postgres") if kind == "postgresql" else None
+        self._made: list[str] = []
+
+    def new(self, name: str = "attesta", *, migrated: bool = True) -> str:
+        """Return the URL of a new database (empty, or with the newest schema)."""
+        if self.server is not None:
+            url = self.server.new_database(migrated=migrated)
+        else:
+            url = database_url(self.folder / f"{name}-{len(self._made)}.db")
+            if migrated:
+                _migrate(url)
+        self._made.append(url)
+        return url
+
+    def close(self) -> None:
+        if self.server is not None:
+            for url in self._made:
+                self.server.release(url)
+        self._made.clear()
+
+
+@pytest.fixture
+def database_urls(db_kind: str, tmp_path: Path, request):  # noqa: ANN001
+    """``database_urls.new(name)``: the URL of one more fresh database of the test's kind."""
+    urls = DatabaseUrls(db_kind, tmp_path, request)
+    yield urls
+    urls.close()
+
+
+@pytest.fixture(scope="module")
+def module_database_urls(db_kind: str, tmp_path_factory, request):  # noqa: ANN001
+    """The same for module-scoped fixtures (a dataset imported once for a module's tests)."""
+    urls = DatabaseUrls(db_kind, tmp_path_factory.mktemp("databases"), request)
+    yield urls
+    urls.close()
+
+
 @pytest.fixture
 def db_path(tmp_path: Path) -> Path:
+    """The SQLite file of ``database`` (SQLite tests only)."""
     return tmp_path / "attesta.db"
 
 
 @pytest.fixture
-def database(db_path: Path):
-    """A migrated, empty database in a temporary file."""
-    db = Database(database_url(db_path))
-    upgrade(db)
+def db_url(db_kind: str, db_path: Path, database_urls: DatabaseUrls) -> str:
+    """URL of a migrated, empty database: the file ``db_path`` on SQLite."""
+    if db_kind == "sqlite":
+        url = database_url(db_path)
+        _migrate(url)
+        return url
+    return database_urls.new()
+
+
+@pytest.fixture
+def database(db_url: str):
+    """A migrated, empty database (a temporary SQLite file, or a PostgreSQL database)."""
+    db = Database(db_url)
     yield db
     db.dispose()
 
 
 @pytest.fixture
-def settings(db_path: Path, database) -> Settings:  # noqa: ARG001 - database migrates the file
-    return Settings(database_url=database_url(db_path))
+def settings(db_url: str, database) -> Settings:  # noqa: ARG001 - the same database as the test's
+    return Settings(database_url=db_url)
 
 
 def chromium_path() -> str | None:

@@ -25,12 +25,14 @@ def test_generator_reproduces_the_committed_workbook(tmp_path):
     assert mismatch == [] and errors == []
 
 
-@pytest.fixture(scope="module")
-def demo(tmp_path_factory):
-    from app.db import Database, upgrade
+pytestmark = pytest.mark.both_databases
 
-    database = Database(f"sqlite:///{tmp_path_factory.mktemp('demo') / 'demo.db'}")
-    upgrade(database)
+
+@pytest.fixture(scope="module")
+def demo(module_database_urls):
+    from app.db import Database
+
+    database = Database(module_database_urls.new("demo"))
     import_workbook(database, DEMO_WORKBOOK, size_limit=10**9)
     yield database
     database.dispose()

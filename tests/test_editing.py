@@ -17,6 +17,8 @@ from app.models import Attestation, AuditEntry, Collection, DataVersion, Person,
 from app.store import editing
 from helpers import add_tiny_dataset
 
+pytestmark = pytest.mark.both_databases  # store and editing tests run on SQLite and PostgreSQL
+
 
 @pytest.fixture
 def client(settings, database):

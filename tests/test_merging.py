@@ -14,6 +14,8 @@ from app.main import create_app
 from app.models import Attestation, AuditEntry, Person, PersonAlias, Relation
 from helpers import add_tiny_dataset
 
+pytestmark = pytest.mark.both_databases  # store and editing tests run on SQLite and PostgreSQL
+
 
 @pytest.fixture
 def client(settings, database):

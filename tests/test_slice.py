@@ -12,12 +12,14 @@ from bs4 import BeautifulSoup
 from fastapi.testclient import TestClient
 from sqlalchemy import select
 
-from app.config import Settings, database_url
-from app.db import Database, upgrade
+from app.config import Settings
+from app.db import Database
 from app.main import create_app
 from app.models import Attestation, Person
 from app.network.slice import DEFAULT_EVIDENCE, Slice, SliceError, build_graph, relation_evidence, resolve_slice, ties_from_evidence
 from tests.slice_world import import_world, key, slice_world
+
+pytestmark = pytest.mark.both_databases
 
 # --- parsing ---------------------------------------------------------------------------------------
 
@@ -121,13 +123,13 @@ def test_describe_says_what_the_slice_keeps():
 
 
 @pytest.fixture(scope="module")
-def world(tmp_path_factory) -> Settings:
+def world(tmp_path_factory, module_database_urls) -> Settings:
     folder = tmp_path_factory.mktemp("slice-world")
-    database = Database(database_url(folder / "attesta.db"))
-    upgrade(database)
+    url = module_database_urls.new("slice-world")
+    database = Database(url)
     import_world(database, folder / "workbook", slice_world())
     database.dispose()
-    return Settings(database_url=database_url(folder / "attesta.db"))
+    return Settings(database_url=url)
 
 
 @pytest.fixture

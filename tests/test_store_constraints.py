@@ -8,13 +8,14 @@ for the rule itself.
 
 from __future__ import annotations
 
+import re
 from collections.abc import Iterator
 from contextlib import contextmanager
 from datetime import date
 
 import pytest
 from sqlalchemy import func, select, text
-from sqlalchemy.exc import IntegrityError
+from sqlalchemy.exc import DataError, IntegrityError
 
 from app.db import Database, DatabaseBusy
 from app.models import Attestation, Base, Person, PersonFact, Place, Source
@@ -37,6 +38,8 @@ REQUIRED = {
 
 FOREIGN_KEY_FAILED = "FOREIGN KEY constraint failed"
 
+pytestmark = pytest.mark.both_databases
+
 
 # --- helpers ------------------------------------------------------------------------------
 
@@ -47,8 +50,8 @@ def insert(database: Database, table: str, **values: object) -> int:
     columns = ", ".join(f'"{name}"' for name in row)
     placeholders = ", ".join(f":{name}" for name in row)
     with database.engine.begin() as connection:
-        result = connection.execute(text(f'INSERT INTO "{table}" ({columns}) VALUES ({placeholders})'), row)
-        return result.lastrowid
+        result = connection.execute(text(f'INSERT INTO "{table}" ({columns}) VALUES ({placeholders}) RETURNING id'), row)
+        return result.scalar_one()
 
 
 def execute(database: Database, sql: str, **params: object) -> None:
@@ -76,13 +79,32 @@ def counts(database: Database) -> dict[str, int]:
 
 @contextmanager
 def refused(rule: str, what: str = "the change") -> Iterator[None]:
-    """Expect an IntegrityError whose message names ``rule`` (a constraint name or SQLite's words)."""
+    """Expect an IntegrityError whose message names ``rule`` (a constraint name or SQLite's words).
+
+    PostgreSQL words the same refusals its own way; ``postgres_words`` translates SQLite's.
+    """
     try:
         yield
     except IntegrityError as error:
-        assert rule in str(error.orig), f"{what} was refused, but not by {rule}: {error.orig}"
+        message = str(error.orig)
+        assert rule in message or postgres_words(rule) in message, f"{what} was refused, but not by {rule}: {message}"
+    except DataError as error:  # PostgreSQL enforces varchar(100) itself, before the key check
+        message = str(error.orig)
+        assert rule.endswith("_key_format") and "value too long for type character varying(100)" in message, message
     else:
         pytest.fail(f"{what} was accepted; {rule} should have refused it")
+
+
+def postgres_words(rule: str) -> str:
+    """PostgreSQL's wording of a refusal given in SQLite's words (constraint names are the same)."""
+    if rule == FOREIGN_KEY_FAILED:
+        return "violates foreign key constraint"
+    if match := re.fullmatch(r"NOT NULL constraint failed: (\w+)\.(\w+)", rule):
+        return f'null value in column "{match[2]}" of relation "{match[1]}"'
+    if match := re.fullmatch(r"UNIQUE constraint failed: (\w+)((?:[.,] ?\w+)*)", rule):
+        columns = [column for column in re.findall(r"\.(\w+)", match[2])]
+        return f'violates unique constraint "uq_{match[1]}' + "".join(f"_{c}" for c in columns)
+    return rule
 
 
 def kind(database: Database, key: str) -> tuple[int, bool]:
@@ -372,17 +394,17 @@ def test_a_relation_cannot_flip_its_own_directed_flag(database: Database) -> Non
     low, high = persons(database, "anna", "bernd")
     relation_id = relate(database, "friendship", low, high)
     with refused(FOREIGN_KEY_FAILED):
-        execute(database, "UPDATE relation SET kind_directed = 1 WHERE id = :id", id=relation_id)
+        execute(database, "UPDATE relation SET kind_directed = TRUE WHERE id = :id", id=relation_id)
 
 
 def test_directed_cannot_change_while_a_relation_uses_the_kind(database: Database) -> None:
     low, high = persons(database, "anna", "bernd")
     relate(database, "friendship", low, high)
     with refused(FOREIGN_KEY_FAILED):
-        execute(database, "UPDATE relation_kind SET directed = 1 WHERE key = 'friendship'")
+        execute(database, "UPDATE relation_kind SET directed = TRUE WHERE key = 'friendship'")
     assert kind(database, "friendship")[1] is False
 
-    execute(database, "UPDATE relation_kind SET directed = 1 WHERE key = 'business'")  # unused: free to change
+    execute(database, "UPDATE relation_kind SET directed = TRUE WHERE key = 'business'")  # unused: free to change
     assert kind(database, "business")[1] is True
     execute(database, "UPDATE relation_kind SET label = 'friends' WHERE key = 'friendship'")  # other columns too
 
@@ -464,7 +486,15 @@ def test_deleting_a_row_in_use_is_refused_and_nothing_cascades(database: Databas
 def test_every_foreign_key_in_the_file_is_restrict(database: Database) -> None:
     actions = {}
     with database.engine.connect() as connection:
-        for table in Base.metadata.tables:
+        if database.engine.dialect.name == "postgresql":  # pg_constraint: 'r' is RESTRICT
+            rows = connection.exec_driver_sql(
+                "SELECT conrelid::regclass::text, conname, confrelid::regclass::text, confdeltype, confupdtype "
+                "FROM pg_constraint WHERE contype = 'f'"
+            ).all()
+            names = {"r": "RESTRICT", "a": "NO ACTION", "c": "CASCADE", "n": "SET NULL", "d": "SET DEFAULT"}
+            for table, name, target, on_delete, on_update in rows:
+                actions[(table, name, target)] = (names[on_delete], names[on_update])
+        for table in Base.metadata.tables if database.engine.dialect.name == "sqlite" else ():
             for row in connection.exec_driver_sql(f'PRAGMA foreign_key_list("{table}")').mappings():
                 actions[(table, row["from"], row["table"])] = (row["on_delete"], row["on_update"])
     assert len(actions) >= 20  # every reference of the schema, not an empty list
@@ -495,6 +525,7 @@ def pragma(connection, name: str) -> object:  # noqa: ANN001
     return connection.exec_driver_sql(f"PRAGMA {name}").scalar()
 
 
+@pytest.mark.sqlite_only
 def test_every_connection_has_foreign_keys_wal_and_a_busy_timeout(database: Database) -> None:
     with database.engine.connect() as first, database.engine.connect() as second:
         for connection in (first, second):
@@ -503,6 +534,7 @@ def test_every_connection_has_foreign_keys_wal_and_a_busy_timeout(database: Data
             assert pragma(connection, "busy_timeout") == 10_000
 
 
+@pytest.mark.sqlite_only
 def test_the_busy_timeout_is_the_one_asked_for(database: Database) -> None:
     other = Database(database.url, busy_timeout_ms=200)
     try:

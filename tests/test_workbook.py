@@ -9,13 +9,15 @@ from pathlib import Path
 import pytest
 from sqlalchemy import func, select, text
 
-from app.db import Database, DatabaseBusy, upgrade
+from app.db import Database, DatabaseBusy
 from app.exchange.workbook import WorkbookError, export_workbook, import_workbook
 from app.models import Attestation, Base, Membership, Person, PersonName, Relation, Source
 from tests.conftest import DEMO_WORKBOOK
 from tests.workbooks import small_world, write_workbook
 
 LIMIT = 200 * 1024 * 1024
+
+pytestmark = pytest.mark.both_databases
 
 
 def row_counts(database: Database) -> dict[str, int]:
@@ -229,9 +231,9 @@ def test_wrong_path(database, tmp_path):
     assert "no such file or folder" in str(caught.value)
 
 
-def test_locked_database_gives_a_clear_message_and_changes_nothing(database, db_path, tmp_path):
+def test_locked_database_gives_a_clear_message_and_changes_nothing(database, tmp_path):
     folder = write_workbook(tmp_path / "wb", small_world())
-    impatient = Database(f"sqlite:///{db_path}", busy_timeout_ms=100)
+    impatient = Database(database.url, busy_timeout_ms=100)
     with database.write() as session:  # another writer holds the lock
         session.execute(text("UPDATE data_version SET version = version"))
         with pytest.raises(DatabaseBusy) as caught:
@@ -253,7 +255,7 @@ def test_membership_terms_must_agree_within_one_import(database, tmp_path):
 # --- the demo: a full round trip -----------------------------------------------------------------
 
 
-def test_demo_round_trip_loses_nothing(database, tmp_path):
+def test_demo_round_trip_loses_nothing(database, database_urls, tmp_path):
     first = import_workbook(database, DEMO_WORKBOOK, size_limit=LIMIT)
     assert first.changed_anything
     exported = tmp_path / "exported"
@@ -266,8 +268,7 @@ def test_demo_round_trip_loses_nothing(database, tmp_path):
     assert row_counts(database) == before
 
     # and a fresh database fed the export exports the very same files
-    fresh = Database(f"sqlite:///{tmp_path / 'fresh.db'}")
-    upgrade(fresh)
+    fresh = Database(database_urls.new("fresh"))
     import_workbook(fresh, exported, size_limit=LIMIT)
     again = tmp_path / "again"
     with fresh.read() as session:
@@ -328,11 +329,9 @@ def test_a_corrected_source_calendar_moves_the_dates_that_follow_it(database, tm
     assert str(follows.earliest) == "1703-06-01"  # no date of its own: the source's date
 
 
-def test_generated_keys_are_the_same_in_two_databases(database, tmp_path):
-    other = Database(f"sqlite:///{tmp_path / 'other.db'}")
-    upgrade(other)
-    extra = Database(f"sqlite:///{tmp_path / 'extra.db'}")
-    upgrade(extra)
+def test_generated_keys_are_the_same_in_two_databases(database, database_urls, tmp_path):
+    other = Database(database_urls.new("other"))
+    extra = Database(database_urls.new("extra"))
     # a first import of something else shifts the ids of the second database
     import_workbook(extra, write_workbook(tmp_path / "x", {"persons.csv": [{"key": "p-zz", "name": "Someone"}]}), size_limit=LIMIT)
     import_workbook(extra, write_workbook(tmp_path / "a", small_world()), size_limit=LIMIT)

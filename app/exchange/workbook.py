@@ -568,6 +568,7 @@ class _PendingInserts:
         connection = self.session.connection()
         dialect = connection.dialect
         quote = dialect.identifier_preparer.quote
+        placeholder = "?" if dialect.paramstyle == "qmark" else "%s"  # SQLite's driver / psycopg's
         for table in self.tables:
             rows = self.rows[table.name]
             if not rows:
@@ -586,8 +587,14 @@ class _PendingInserts:
                     values = [tuple(v if p is None or v is None else p(v) for p, v in zip(processors, row))
                               for row in values]
                 sql = (f"INSERT INTO {quote(table.name)} ({', '.join(quote(c) for c in columns)}) "
-                       f"VALUES ({', '.join('?' * len(columns))})")
+                       f"VALUES ({', '.join([placeholder] * len(columns))})")
                 connection.exec_driver_sql(sql, values)
+                if dialect.name == "postgresql" and "id" in names:
+                    # ids handed out here do not move the table's sequence; later inserts would collide
+                    connection.exec_driver_sql(
+                        f"SELECT setval(pg_get_serial_sequence('{table.name}', 'id'), "
+                        f"(SELECT max(id) FROM {quote(table.name)}))"
+                    )
             rows.clear()
         self.waiting = 0
 

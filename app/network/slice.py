@@ -23,6 +23,7 @@ from sqlalchemy.orm import Session, aliased
 from app.dates import DateError, parse_interval
 from app.models import CERTAINTIES, EVIDENCE_KINDS, Attestation, Collection, Person, Relation, RelationKind, Repository, Source
 from app.network.same_as import merge_nodes, merge_rows, same_as_mapping
+from app.sql import distinct_list
 
 __all__ = [
     "EvidenceRow",
@@ -437,7 +438,7 @@ def slice_totals(session: Session, resolved: ResolvedSlice) -> list[SliceTotal]:
     document = func.coalesce(Source.copy_of_id, Source.id)
     columns = [
         Relation.id, Relation.kind_id, Relation.kind_directed, Relation.person_a_id, Relation.person_b_id,
-        func.count(Attestation.id), func.count(document.distinct()), func.group_concat(document.distinct()),
+        func.count(Attestation.id), func.count(document.distinct()), distinct_list(document),
     ]
     query = _evidence_query(resolved, columns, None, False).group_by(Relation.id)
     if resolved.slice.min_collections > 1:

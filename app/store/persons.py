@@ -583,7 +583,7 @@ def _memberships(session: Session, pid: int) -> list[PersonMembership]:
         .join(Group, Membership.group_id == Group.id)
         .join(Attestation, Attestation.membership_id == Membership.id)
         .where(Membership.person_id == pid, _LIVE)
-        .group_by(Membership.id)
+        .group_by(Membership.id, Group.id)  # PostgreSQL wants the joined key too
         .order_by(func.coalesce(Membership.start_earliest, _first_day()), Group.name, Membership.role)
     ).all()
     return [

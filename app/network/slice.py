@@ -17,7 +17,7 @@ from datetime import date
 from typing import Any, NamedTuple
 
 import networkx as nx
-from sqlalchemy import ColumnElement, and_, func, or_, select
+from sqlalchemy import ColumnElement, and_, case, func, or_, select
 from sqlalchemy.orm import Session, aliased
 
 from app.dates import DateError, parse_interval
@@ -25,6 +25,7 @@ from app.models import CERTAINTIES, EVIDENCE_KINDS, Attestation, Collection, Per
 
 __all__ = [
     "EvidenceRow",
+    "NeighbourTotal",
     "RelationTotal",
     "ResolvedSlice",
     "Slice",
@@ -34,6 +35,7 @@ __all__ = [
     "build_graph",
     "collection_counts",
     "graph_from_totals",
+    "neighbour_totals",
     "relation_evidence",
     "relation_totals",
     "resolve_slice",
@@ -336,9 +338,10 @@ def _evidence_query(resolved: ResolvedSlice, columns: list[Any], persons: Iterab
         select(*columns)
         .join(Relation, Attestation.relation_id == Relation.id)
         .join(Source, Attestation.source_id == Source.id)
-        .outerjoin(Collection, Source.collection_id == Collection.id)
         .where(*attestation_conditions(resolved))
     )
+    if resolved.keep_repository_ids or resolved.omit_repository_ids:  # the only conditions on collection
+        query = query.outerjoin(Collection, Source.collection_id == Collection.id)
     if resolved.kind_ids is not None:
         query = query.where(Relation.kind_id.in_(resolved.kind_ids))
     if s.unidentified == "drop":
@@ -409,6 +412,39 @@ def relation_totals(session: Session, resolved: ResolvedSlice, *, persons: Itera
     return [RelationTotal(*row) for row in session.connection().execute(query).all()]
 
 
+class NeighbourTotal(NamedTuple):
+    """The ties of one person to a set of persons in the slice, summed in SQL over relations."""
+
+    person: int
+    relations: int
+    attestations: int  # summed over the relations
+    documents: int  # each relation's distinct documents, summed over the relations
+
+
+def neighbour_totals(session: Session, resolved: ResolvedSlice, *, persons: Iterable[int]) -> list[NeighbourTotal]:
+    """Return every person tied to one of ``persons`` (either way) with the sums of those ties.
+
+    Each relation between the person and one of ``persons`` counts once, with its attestations
+    and distinct documents in the slice, as ``relation_totals`` counts them; the sums are made
+    by the database (grouped by the other person), so a set of hubs with 90,000 relations costs
+    one row per neighbour. ``persons`` themselves may appear too (tied to each other or to
+    themselves, counted for one end only); callers leave them out.
+    """
+    ids = sorted(set(persons))
+    document = func.coalesce(Source.copy_of_id, Source.id)
+    columns = [Relation.person_a_id.label("a"), Relation.person_b_id.label("b"),
+               func.count(Attestation.id).label("attestations"), func.count(document.distinct()).label("documents")]
+    per_relation = _evidence_query(resolved, columns, ids, False).group_by(Relation.id)
+    if resolved.slice.min_collections > 1:
+        per_relation = per_relation.having(func.count(Source.collection_id.distinct()) >= resolved.slice.min_collections)
+    r = per_relation.subquery()
+    # One pass over the relations (a UNION of two selects would count them twice): a relation
+    # between two of ``persons`` is counted for one of its ends only, and callers leave those out.
+    other = case((r.c.a.in_(ids), r.c.b), else_=r.c.a).label("other")
+    query = select(other, func.count(), func.sum(r.c.attestations), func.sum(r.c.documents)).group_by(other)
+    return [NeighbourTotal(*row) for row in session.connection().execute(query).all()]
+
+
 class SliceTotal(NamedTuple):
     """One relation kept by the slice, counted in SQL, with its documents as comma-separated ids."""
 
@@ -422,19 +458,22 @@ class SliceTotal(NamedTuple):
     document_list: str  # read only where one tie holds several relations
 
 
-def slice_totals(session: Session, resolved: ResolvedSlice) -> list[SliceTotal]:
+def slice_totals(
+    session: Session, resolved: ResolvedSlice, *, persons: Iterable[int] | None = None, both_ends: bool = False
+) -> list[SliceTotal]:
     """Return every relation the slice keeps with its counts, one row per relation.
 
     The measure pages build their graph from these (see ``graph_from_totals``): on a slice of
     200,000 attestations reading one row per relation instead of one per attestation saves
-    seconds, and attestation ids are fetched later only where a page shows them.
+    seconds, and attestation ids are fetched later only where a page shows them. ``persons``
+    and ``both_ends`` narrow the relations as in ``relation_evidence``.
     """
     document = func.coalesce(Source.copy_of_id, Source.id)
     columns = [
         Relation.id, Relation.kind_id, Relation.kind_directed, Relation.person_a_id, Relation.person_b_id,
         func.count(Attestation.id), func.count(document.distinct()), func.group_concat(document.distinct()),
     ]
-    query = _evidence_query(resolved, columns, None, False).group_by(Relation.id)
+    query = _evidence_query(resolved, columns, persons, both_ends).group_by(Relation.id)
     if resolved.slice.min_collections > 1:
         query = query.having(func.count(Source.collection_id.distinct()) >= resolved.slice.min_collections)
     return [SliceTotal(*row) for row in session.connection().execute(query).all()]

@@ -34,12 +34,15 @@ __all__ = [
     "TieEvidence",
     "build_graph",
     "collection_counts",
+    "arc_counts",
     "graph_from_totals",
+    "node_set",
     "neighbour_totals",
     "relation_evidence",
     "relation_totals",
     "resolve_slice",
     "slice_totals",
+    "tie_arcs",
     "ties_from_evidence",
 ]
 
@@ -587,17 +590,17 @@ def graph_from_evidence(session: Session, resolved: ResolvedSlice, rows: list[Ev
             attestation_ids=sorted(arc["attestation_ids"]), relation_ids=sorted(arc["relation_ids"]), kinds=sorted(arc["kinds"]),
             document_ids=sorted(arc["documents"]),
         )
-    for node in _node_set(session, resolved, rows, tied):
+    for node in node_set(session, resolved, rows, tied):
         G.add_node(node)
     return G
 
 
-def graph_from_totals(session: Session, resolved: ResolvedSlice, totals: list[SliceTotal]) -> nx.Graph | nx.DiGraph:
-    """Return the graph of the slice from per-relation counts, for the measures.
+def tie_arcs(resolved: ResolvedSlice, totals: list[SliceTotal]) -> tuple[dict[tuple[int, int], list[SliceTotal]], list[SliceTotal]]:
+    """Return the arcs of the slice's graph, each with the relations behind it, and the relations kept.
 
-    The same nodes, edges, ``weight``, ``attestations``, ``documents``, ``relation_ids`` and
-    ``kinds`` as ``graph_from_evidence``, without attestation or document ids: a tie's
-    documents are counted exactly (the union of its relations' documents when it holds several).
+    The rules of ``graph_from_evidence``: under ``direction=recorded`` an arc per direction (an
+    undirected kind both ways), otherwise a tie per pair (smaller id first); ``reciprocal`` keeps
+    a directed relation only when its kind is attested the other way; loops unless ``loops=drop``.
     """
     s = resolved.slice
     directed_view = s.direction == "recorded"
@@ -613,25 +616,47 @@ def graph_from_totals(session: Session, resolved: ResolvedSlice, totals: list[Sl
         arcs[(a, b) if directed_view or a <= b else (b, a)].append(row)
         if directed_view and not row.directed and a != b:
             arcs[(b, a)].append(row)
+    return arcs, tied
+
+
+def arc_counts(rows: list[SliceTotal]) -> tuple[int, int]:
+    """Return the attestations and distinct documents of an arc (the union where it holds several relations)."""
+    if len(rows) == 1:
+        return rows[0].attestations, rows[0].documents
+    return sum(r.attestations for r in rows), len({d for r in rows for d in r.document_list.split(",")})
+
+
+def graph_from_totals(
+    session: Session | None, resolved: ResolvedSlice, totals: list[SliceTotal], *,
+    arcs: tuple[dict[tuple[int, int], list[SliceTotal]], list[SliceTotal]] | None = None, nodes: Iterable[int] | None = None,
+) -> nx.Graph | nx.DiGraph:
+    """Return the graph of the slice from per-relation counts, for the measures.
+
+    The same nodes, edges, ``weight``, ``attestations``, ``documents``, ``relation_ids`` and
+    ``kinds`` as ``graph_from_evidence``, without attestation or document ids: a tie's
+    documents are counted exactly (the union of its relations' documents when it holds several).
+    ``arcs`` (from ``tie_arcs``) and ``nodes`` (from ``node_set``) may be given when already made;
+    without ``nodes`` the session reads the node set.
+    """
+    s = resolved.slice
+    by_arc, tied = arcs if arcs is not None else tie_arcs(resolved, totals)
 
     def edge(u: int, v: int, rows: list[SliceTotal]) -> tuple[int, int, dict[str, Any]]:
+        attestations, documents = arc_counts(rows)
         if len(rows) == 1:
-            row = rows[0]
-            attestations, documents, relations, kinds = row.attestations, row.documents, [row.relation_id], [row.kind_id]
+            relations, kinds = [rows[0].relation_id], [rows[0].kind_id]
         else:
-            attestations = sum(r.attestations for r in rows)
-            documents = len({d for r in rows for d in r.document_list.split(",")})
             relations, kinds = sorted({r.relation_id for r in rows}), sorted({r.kind_id for r in rows})
         return u, v, {"weight": tie_weight(attestations, documents, s.weight), "attestations": attestations,
                       "documents": documents, "relation_ids": relations, "kinds": kinds}
 
-    G: nx.Graph = nx.DiGraph() if directed_view else nx.Graph()
-    G.add_edges_from(edge(u, v, rows) for (u, v), rows in arcs.items())
-    G.add_nodes_from(_node_set(session, resolved, totals, tied))  # type: ignore[arg-type]
+    G: nx.Graph = nx.DiGraph() if s.direction == "recorded" else nx.Graph()
+    G.add_edges_from(edge(u, v, rows) for (u, v), rows in by_arc.items())
+    G.add_nodes_from(nodes if nodes is not None else node_set(session, resolved, totals, tied))  # type: ignore[arg-type]
     return G
 
 
-def _node_set(session: Session, resolved: ResolvedSlice, rows: list[EvidenceRow], tied: list[EvidenceRow]) -> set[int]:
+def node_set(session: Session, resolved: ResolvedSlice, rows: Sequence[Any], tied: Sequence[Any]) -> set[int]:
     """Return the persons of the node set: with a tie drawn, with any evidence in the slice, or all."""
     s = resolved.slice
     if s.nodes == "ties":

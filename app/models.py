@@ -540,3 +540,5 @@ class Job(Base):
     started_at: Mapped[datetime | None] = mapped_column(DateTime, nullable=True)
     finished_at: Mapped[datetime | None] = mapped_column(DateTime, nullable=True)
     error: Mapped[str | None] = mapped_column(Text, nullable=True)
+    worker_host: Mapped[str | None] = mapped_column(String(255), nullable=True)  # the machine of the worker running it
+    worker_pid: Mapped[int | None] = mapped_column(Integer, nullable=True)  # its process id there

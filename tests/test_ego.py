@@ -485,3 +485,56 @@ def test_openapi_documents_the_routes_and_the_view_model(client: TestClient):
     for model in ("EgoPanel", "EgoNode", "EgoEdge", "Drawing", "DrawnNode", "DrawnEdge", "KindStyle", "SliceControls"):
         undocumented = [name for name, spec in components[model]["properties"].items() if not spec.get("description")]
         assert undocumented == [], model
+
+
+# --- alters chosen on sums made in SQL --------------------------------------------------------
+
+
+@pytest.mark.parametrize("query", ["", "direction=undirected", "weight=attestations", "weight=none",
+                                   "min_collections=2", "certainty=certain", "from=1705&to=1712"])
+def test_neighbour_sums_equal_the_sums_of_each_relation(client: TestClient, query: str):
+    """``neighbour_totals`` (grouped by the other person in SQL) adds up exactly what ``relation_totals`` lists per relation."""
+    from collections import defaultdict
+
+    from app.network.slice import neighbour_totals, relation_totals
+
+    database = client.app.state.database
+    with database.read() as session:
+        resolved = resolve_slice(session, Slice.from_query(parse_qsl(query)))
+        everyone = list(session.scalars(select(Person.id)))
+        for group in ([p] for p in everyone), [everyone[:3]], [everyone]:
+            for anchors in group:
+                expected: dict[int, list[int]] = defaultdict(lambda: [0, 0, 0])
+                for total in relation_totals(session, resolved, persons=anchors):
+                    other = total.person_b if total.person_a in anchors else total.person_a
+                    sums = expected[other]
+                    sums[0] += 1
+                    sums[1] += total.attestations
+                    sums[2] += total.documents
+                found = {row.person: [row.relations, row.attestations, row.documents]
+                         for row in neighbour_totals(session, resolved, persons=anchors)}
+                assert found == dict(expected), (query, anchors)
+
+
+def test_the_cap_keeps_the_strongest_alters_whatever_the_direction_mode(client: TestClient):
+    """With the cap lowered to 2, the two alters kept are those of the largest summed weight (ties by key)."""
+    database = client.app.state.database
+    with database.read() as session:
+        ego_id = session.scalar(select(Person.id).where(Person.key == key("E")))
+        for direction in ("recorded", "undirected", "reciprocal"):
+            resolved = resolve_slice(session, Slice(direction=direction))
+            full = ego_network(session, resolved, ego_id, radius=1, max_alters=100)
+            capped = ego_network(session, resolved, ego_id, radius=1, max_alters=2)
+            strength: dict[str, list[float]] = {}
+            for edge in full.edges:
+                if full.ego in (edge.source, edge.target) and edge.source != edge.target:
+                    other = edge.target if edge.source == full.ego else edge.source
+                    s = strength.setdefault(other, [0.0, 0, 0])
+                    s[0] += edge.weight
+                    s[1] += edge.documents
+                    s[2] += edge.attestations
+            ranked = sorted(strength, key=lambda k: ([-x for x in strength[k]], k))
+            kept = {n.key for n in capped.nodes if n.distance == 1}
+            assert len(kept) == min(2, len(ranked)), direction
+            assert kept == set(ranked[:2]), (direction, strength)
+            assert capped.left_out[1] == len(ranked) - len(kept)

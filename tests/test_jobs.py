@@ -8,6 +8,7 @@ for a large slice: the inline threshold is lowered to 2 persons so that closenes
 from __future__ import annotations
 
 import os
+import subprocess
 import time
 from pathlib import Path
 
@@ -15,7 +16,7 @@ import networkx as nx
 import pytest
 from bs4 import BeautifulSoup
 from fastapi.testclient import TestClient
-from sqlalchemy import func, select
+from sqlalchemy import func, select, update
 
 from app.config import Settings
 from app.db import Database
@@ -135,16 +136,56 @@ def test_a_job_runs_in_another_process_and_the_page_then_shows_the_exact_result(
     assert len(jobs_in(florentine_db)) == 1
 
 
+def dead_pid() -> int:
+    """The process id of a process that has ended (and been waited for)."""
+    process = subprocess.Popen(["true"])  # noqa: S603, S607
+    assert process.wait() == 0
+    return process.pid
+
+
+def hold_job(database: Database, job_id: int, pid: int) -> None:
+    """Claim the job as the worker process ``pid`` of this machine would."""
+    with database.write() as session:
+        assert claim_next_job(session=session).id == job_id
+        session.execute(update(Job).where(Job.id == job_id).values(worker_pid=pid))
+
+
 def test_a_job_left_running_by_a_killed_server_is_requeued_and_run(florentine_db: Database, settings: Settings):
     client = TestClient(small_threshold_app(settings))
     job_id = centrality(client, "harmonic")["job"]["id"]
-    with florentine_db.write() as session:
-        assert claim_next_job(session=session).id == job_id  # "running", and then the server died
+    hold_job(florentine_db, job_id, dead_pid())  # "running", and then the server and its worker died
     with TestClient(small_threshold_app(settings)) as restarted:
         assert wait_for(restarted, job_id)["state"] == "done"
         assert len(centrality(restarted, "harmonic")["rows"]) == 15
     with florentine_db.read() as session:
         assert session.scalar(select(func.count()).select_from(Job)) == 1
+
+
+def test_a_starting_server_leaves_alone_a_job_another_live_worker_runs(florentine_db: Database, settings: Settings):
+    """Another server's worker on this machine (here: this very process) holds the job: no requeue, no second run."""
+    client = TestClient(small_threshold_app(settings))
+    job_id = centrality(client, "harmonic")["job"]["id"]
+    hold_job(florentine_db, job_id, os.getpid())
+    with TestClient(small_threshold_app(settings)) as second:
+        status = second.get(f"/api/network/jobs/{job_id}").json()
+        assert status["state"] == "running"
+        assert second.app.state.worker._process is None  # nothing queued, so no worker started
+    (job,) = jobs_in(florentine_db)
+    assert job.state == "running" and job.worker_pid == os.getpid()
+
+
+def test_a_polling_page_learns_that_the_worker_was_killed(florentine_db: Database, settings: Settings):
+    """A running job whose worker process is gone is failed at the next poll, with a sentence saying so."""
+    client = TestClient(small_threshold_app(settings))
+    job_id = centrality(client, "harmonic")["job"]["id"]
+    pid = dead_pid()
+    hold_job(florentine_db, job_id, pid)
+    status = client.get(f"/api/network/jobs/{job_id}").json()
+    assert status["state"] == "failed"
+    assert f"process {pid}" in status["error"] and "stopped before it finished" in status["error"]
+    fragment = BeautifulSoup(client.get(f"/network/jobs/{job_id}").text, "html.parser")
+    status_box = fragment.select_one("#job-status")
+    assert status_box["data-state"] == "failed" and not status_box.has_attr("hx-get")  # the polling stops
 
 
 def test_needs_worker_only_for_heavy_measures_on_large_slices():

@@ -14,7 +14,16 @@ from dataclasses import dataclass, field
 
 from sqlalchemy.orm import Session
 
-from app.network.slice import EvidenceRow, RelationTotal, ResolvedSlice, relation_evidence, relation_totals, tie_weight
+from app.network.slice import (
+    NeighbourTotal,
+    RelationTotal,
+    ResolvedSlice,
+    SliceTotal,
+    neighbour_totals,
+    relation_totals,
+    slice_totals,
+    tie_weight,
+)
 from app.store.network_labels import KindLabel, PersonLabel, list_person_labels, list_relation_kinds
 
 __all__ = ["DEFAULT_MAX_ALTERS", "EgoEdge", "EgoNetwork", "EgoNode", "ego_network"]
@@ -118,28 +127,38 @@ def ego_network(
         raise ValueError(f"radius must be 1 or 2, not {radius}")
     cap = DEFAULT_MAX_ALTERS[radius] if max_alters is None else max_alters
     direction, weight = resolved.slice.direction, resolved.slice.weight
-    def totals(persons: Iterable[int]) -> dict[tuple, list[float]]:
+    def totals(persons: Iterable[int]) -> dict[int, list[float]]:
+        """Return the strength of each person's ties to ``persons``: [weight, documents, attestations]."""
         persons = sorted(persons)
-        found: list[RelationTotal] = []
-        for start in range(0, len(persons), 400):  # chunks stay under SQLite's limit of bound parameters
-            found += relation_totals(session, resolved, persons=persons[start : start + 400])
-        return _strengths(found, direction, weight)
+        if direction == "reciprocal":  # whether a tie counts depends on the other direction: per relation
+            found: list[RelationTotal] = []
+            for start in range(0, len(persons), 400):  # chunks stay under SQLite's limit of bound parameters
+                found += relation_totals(session, resolved, persons=persons[start : start + 400])
+            return _strength_to(_strengths(found, direction, weight), set(persons))
+        strength: dict[int, list[float]] = {}
+        for start in range(0, len(persons), 200):
+            for row in neighbour_totals(session, resolved, persons=persons[start : start + 200]):
+                found = [_summed_weight(row, weight), row.documents, row.attestations]
+                if row.person in strength:  # met again from another chunk of persons
+                    found = [x + y for x, y in zip(strength[row.person], found)]
+                strength[row.person] = found
+        return strength
 
-    # Alters are chosen on counts made by the database; evidence rows are read only for the drawn.
+    # Alters are chosen on sums made by the database; evidence rows are read only for the drawn.
     first = totals([ego_id])
-    found_first = _neighbours(first, {ego_id}) - {ego_id}
-    kept_first = _strongest(session, first, found_first, {ego_id}, cap)
+    found_first = set(first) - {ego_id}
+    kept_first = _strongest(session, first, found_first, cap)
     kept_second: set[int] = set()
     left_out = {1: len(found_first) - len(kept_first)}
     if radius == 2:
         second = totals(kept_first)
-        found_second = _neighbours(second, kept_first) - found_first - {ego_id}
-        kept_second = _strongest(session, second, found_second, kept_first, max(cap - len(kept_first), 0))
+        found_second = set(second) - found_first - {ego_id}
+        kept_second = _strongest(session, second, found_second, max(cap - len(kept_first), 0))
         left_out[2] = len(found_second) - len(kept_second)
 
     drawn = {ego_id} | kept_first | kept_second
     labels = list_person_labels(session=session, ids=drawn)
-    inside = relation_evidence(session, resolved, persons=sorted(drawn), both_ends=True)
+    inside = slice_totals(session, resolved, persons=sorted(drawn), both_ends=True)
     kinds = {k.id: k for k in list_relation_kinds(session=session)}
     edges = [_edge(tie, labels, kinds, weight) for tie in _ties(inside, direction).values()]
     edges.sort(key=lambda e: (e.source, e.target, e.kind))
@@ -163,13 +182,21 @@ class _Tie:
     person_b: int
     kind_id: int
     directed: bool
-    attestation_ids: set[int] = field(default_factory=set)
-    documents: set[int] = field(default_factory=set)
-    relation_ids: set[int] = field(default_factory=set)
+    relations: list[SliceTotal] = field(default_factory=list)
+
+    @property
+    def attestations(self) -> int:
+        return sum(r.attestations for r in self.relations)  # an attestation belongs to one relation
+
+    @property
+    def documents(self) -> int:
+        if len(self.relations) == 1:
+            return self.relations[0].documents
+        return len({d for r in self.relations for d in r.document_list.split(",")})  # a document may attest both
 
 
-def _ties(rows: Iterable[EvidenceRow], direction: str) -> dict[tuple, _Tie]:
-    """Return the ties of the evidence rows under the direction mode, keyed by pair and kind."""
+def _ties(rows: Iterable[SliceTotal], direction: str) -> dict[tuple, _Tie]:
+    """Return the ties of the slice's relations under the direction mode, keyed by pair and kind."""
     ties: dict[tuple, _Tie] = {}
     directions: dict[tuple, set[tuple[int, int]]] = defaultdict(set)
     for row in rows:
@@ -180,9 +207,7 @@ def _ties(rows: Iterable[EvidenceRow], direction: str) -> dict[tuple, _Tie]:
         tie = ties.get((a, b, row.kind_id))
         if tie is None:
             tie = ties[(a, b, row.kind_id)] = _Tie(a, b, row.kind_id, directed)
-        tie.attestation_ids.add(row.attestation_id)
-        tie.documents.add(row.document)
-        tie.relation_ids.add(row.relation_id)
+        tie.relations.append(row)
     if direction == "reciprocal":
         for key, seen in directions.items():
             a, b, _kind = key
@@ -214,21 +239,30 @@ def _strengths(totals: Iterable[RelationTotal], direction: str, weight: str) -> 
     return strengths
 
 
-def _neighbours(ties: dict[tuple, list[float]], persons: set[int]) -> set[int]:
-    """Return every person tied to one of ``persons`` (either way)."""
-    found: set[int] = set()
-    for a, b, _kind in ties:
-        if a in persons:
-            found.add(b)
-        if b in persons:
-            found.add(a)
-    return found
+def _strength_to(ties: dict[tuple, list[float]], anchors: set[int]) -> dict[int, list[float]]:
+    """Return, for every person tied to one of ``anchors``, the summed strength of those ties."""
+    strength: dict[int, list[float]] = defaultdict(lambda: [0.0, 0, 0])
+    for (a, b, _kind), tie in ties.items():
+        for person, other in ((a, b), (b, a)):
+            if other in anchors:
+                s = strength[person]
+                s[0] += tie[0]
+                s[1] += tie[1]
+                s[2] += tie[2]
+            if a == b:
+                break
+    return dict(strength)
 
 
-def _strongest(
-    session: Session, ties: dict[tuple, list[float]], candidates: set[int], anchors: set[int], cap: int
-) -> set[int]:
-    """Return at most ``cap`` candidates, those with the strongest ties to ``anchors`` first.
+def _summed_weight(row: NeighbourTotal, weight: str) -> float:
+    """Return the sum over the row's relations of each relation's weight (see ``tie_weight``)."""
+    if weight == "none":
+        return float(row.relations)
+    return tie_weight(row.attestations, row.documents, weight)
+
+
+def _strongest(session: Session, strength: dict[int, list[float]], candidates: set[int], cap: int) -> set[int]:
+    """Return at most ``cap`` candidates, those with the strongest ties first.
 
     Strength is (summed weight, documents, attestations); equal strengths at the cut are
     decided by key, which is read only for them.
@@ -237,14 +271,6 @@ def _strongest(
         return set(candidates)
     if cap == 0:
         return set()
-    strength: dict[int, list[float]] = {p: [0.0, 0, 0] for p in candidates}
-    for (a, b, _kind), tie in ties.items():
-        for person, other in ((a, b), (b, a)):
-            if person in strength and other in anchors:
-                s = strength[person]
-                s[0] += tie[0]
-                s[1] += tie[1]
-                s[2] += tie[2]
     ranked = sorted(candidates, key=lambda p: [-x for x in strength[p]])
     boundary = strength[ranked[cap - 1]]
     kept = {p for p in ranked[:cap] if strength[p] != boundary}
@@ -254,12 +280,12 @@ def _strongest(
 
 
 def _edge(tie: _Tie, labels: dict[int, PersonLabel], kinds: dict[int, KindLabel], weight: str) -> EgoEdge:
-    attestations, documents = len(tie.attestation_ids), len(tie.documents)
+    attestations, documents = tie.attestations, tie.documents
     return EgoEdge(
         source=labels[tie.person_a].key, target=labels[tie.person_b].key, source_name=labels[tie.person_a].name,
         target_name=labels[tie.person_b].name, kind=kinds[tie.kind_id].key,
         kind_label=kinds[tie.kind_id].label, directed=tie.directed, attestations=attestations, documents=documents,
-        weight=tie_weight(attestations, documents, weight), relation_ids=sorted(tie.relation_ids),
+        weight=tie_weight(attestations, documents, weight), relation_ids=sorted(r.relation_id for r in tie.relations),
     )  # fmt: skip
 
 

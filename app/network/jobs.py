@@ -13,20 +13,33 @@ from __future__ import annotations
 
 import json
 import multiprocessing
-import threading
 import os
+import socket
+import threading
 import time
 import traceback
 from dataclasses import dataclass
+from datetime import UTC, datetime
 from urllib.parse import parse_qsl
 
 from app.db import Database
 from app.network.results import VISIBILITY_ALL, Outcome, get_or_compute, options_key, peek_outcome, slice_key
 from app.network.slice import Slice
-from app.store.jobs import JobInfo, claim_next_job, finish_job, get_job, request_job, requeue_running_jobs, set_job_progress
+from app.store.jobs import (
+    JobInfo,
+    claim_next_job,
+    fail_orphaned_job,
+    finish_job,
+    get_job,
+    get_job_by_id,
+    request_job,
+    requeue_running_jobs,
+    set_job_progress,
+    worker_alive,
+)
 from app.store.measure_results import get_slice_size
 
-__all__ = ["HEAVY", "INLINE_UP_TO", "QUEUE_CAP", "Pending", "Worker", "outcome_or_job", "run_next_job", "worker_loop"]
+__all__ = ["HEAVY", "INLINE_UP_TO", "QUEUE_CAP", "Pending", "Worker", "current_job", "outcome_or_job", "run_next_job", "worker_loop"]
 
 HEAVY = frozenset({"closeness", "weighted_closeness", "harmonic", "betweenness", "weighted_betweenness"})
 """Measures computed in the background on a large slice (betweenness only when exact)."""
@@ -95,6 +108,16 @@ def latest_job(database: Database, *, measure: str, options: dict, slice: Slice,
                        visibility=visibility)
 
 
+def current_job(database: Database, job_id: int) -> JobInfo | None:
+    """Return a job as a polling page should see it: a running job whose worker is gone is marked failed."""
+    with database.read() as session:
+        job = get_job_by_id(session=session, job_id=job_id)
+    if job is not None and job.state == "running" and not worker_alive(job):
+        with database.write() as session:
+            job = fail_orphaned_job(session=session, job_id=job_id)
+    return job
+
+
 def run_next_job(database: Database) -> JobInfo | None:
     """Claim the oldest queued job, compute and store its result, mark it done or failed; return it."""
     with database.write() as session:
@@ -149,7 +172,8 @@ class Worker:
         self._start_lock = threading.Lock()
 
     def start(self) -> None:
-        """Requeue jobs a killed server left running, and start the process if any job waits."""
+        """Requeue jobs whose worker is gone (not those another live server's worker runs), and start
+        the process if any job waits."""
         self._running = True
         with self.database.write() as session:
             requeue_running_jobs(session=session)
@@ -174,9 +198,11 @@ class Worker:
 
             from app.models import Job
 
-            with self.database.write() as session:
-                session.execute(update(Job).where(Job.state == "running").values(
-                    state="failed", error=f"the worker process stopped (exit code {self._process.exitcode})"))
+            with self.database.write() as session:  # only what this server's own worker held
+                session.execute(update(Job).where(
+                    Job.state == "running", Job.worker_pid == self._process.pid, Job.worker_host == socket.gethostname(),
+                ).values(state="failed", finished_at=datetime.now(UTC).replace(tzinfo=None),
+                         error=f"the worker process stopped (exit code {self._process.exitcode}); recompute to try again"))
         self._stop.clear()
         self._process = self._context.Process(target=worker_loop, args=(self.database.url, self._stop),
                                               name="attesta-measures", daemon=True)

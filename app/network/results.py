@@ -21,7 +21,7 @@ import math
 import time
 from collections import Counter
 from collections.abc import Callable, Hashable
-from dataclasses import asdict, dataclass, replace
+from dataclasses import asdict, dataclass, field, replace
 from datetime import UTC, datetime
 from typing import Any
 from urllib.parse import urlencode
@@ -32,7 +32,20 @@ from sqlalchemy.orm import Session
 from app.db import Database
 from app.network.measures import MEASURES, cliques, communities, components, compute, cuts, summarize
 from app.network.measures.results import MeasureError
-from app.network.slice import ResolvedSlice, Slice, collection_counts, graph_from_totals, resolve_slice, slice_totals
+from app.network.measures.arcs import ArcGraph
+from app.network.same_as import merge_nodes, merge_rows, same_as_mapping
+from app.network.slice import (
+    ResolvedSlice,
+    Slice,
+    arc_counts,
+    collection_counts,
+    graph_from_totals,
+    node_set,
+    resolve_slice,
+    slice_totals,
+    tie_arcs,
+    tie_weight,
+)
 from app.store.measure_results import get_stored_result, save_result
 from app.store.network_labels import list_collection_names, list_person_labels
 from app.store.summary import get_data_version
@@ -212,41 +225,66 @@ def get_or_compute_many(
 
 @dataclass(frozen=True)
 class SliceGraph:
-    """The graph of a slice with what the measures need beside it."""
+    """The graph of a slice with what the measures need beside it.
+
+    ``arcs`` holds the graph as arrays (built straight from the per-relation counts made in SQL),
+    which the centralities and components read; ``G``, the networkx graph with each tie's
+    relations and counts, is built on first use (cut points, cliques, communities, summary), so
+    the pages that need only arrays never pay for it.
+    """
 
     slice: Slice
-    G: nx.Graph
     key_of: dict[int, str]  # person id -> key
     resolved: ResolvedSlice
     attestations: dict[int, int]  # relation id -> its attestations in the slice
     seconds: float  # time taken to read the evidence and build the graph
+    arcs: ArcGraph
+    make_graph: Callable[[], nx.Graph]
+    _built: dict[str, nx.Graph] = field(default_factory=dict, compare=False, repr=False)
+
+    @property
+    def G(self) -> nx.Graph:
+        """The networkx graph of the slice (built once, on first use)."""
+        if "G" not in self._built:
+            self._built["G"] = self.make_graph()
+        return self._built["G"]
 
     @classmethod
     def build(cls, session: Session, slice_: Slice) -> SliceGraph:
         """Read the slice's relations, counted in SQL, and build its graph (SliceError for an unknown key)."""
         started = time.perf_counter()
         resolved = resolve_slice(session, slice_)
-        totals = slice_totals(session, resolved)
-        G = graph_from_totals(session, resolved, totals)
-        labels = list_person_labels(session=session, ids=list(G))
-        return cls(slice_, G, {node: labels[node].key for node in G}, resolved,
-                   {row.relation_id: row.attestations for row in totals}, time.perf_counter() - started)
+        same_as = same_as_mapping(session, slice_.same_as)  # persons linked as possibly one, under same_as=merge
+        totals = merge_rows(slice_totals(session, resolved), same_as)
+        arcs, tied = tie_arcs(resolved, totals)
+        nodes = sorted(merge_nodes(node_set(session, resolved, totals, tied), same_as))
+        labels = list_person_labels(session=session, ids=nodes)
+        position = {node: i for i, node in enumerate(nodes)}
+        counts = [arc_counts(rows) for rows in arcs.values()]
+        array_graph = ArcGraph.from_arrays(
+            nodes, [position[u] for u, _ in arcs], [position[v] for _, v in arcs],
+            [tie_weight(attestations, documents, slice_.weight) for attestations, documents in counts],
+            directed=slice_.direction == "recorded",
+        )
+        return cls(slice_, {node: labels[node].key for node in nodes}, resolved,
+                   {row.relation_id: row.attestations for row in totals}, time.perf_counter() - started, array_graph,
+                   lambda: graph_from_totals(None, resolved, totals, arcs=(arcs, tied), nodes=nodes))
 
 
 def compute_result(session: Session, graph: SliceGraph, *, measure: str, options: dict[str, Any]) -> dict[str, Any]:
     """Return the result of one measure on the slice's graph, as JSON data with persons by key."""
-    G, slice_, key_of = graph.G, graph.slice, graph.key_of
+    slice_, key_of = graph.slice, graph.key_of
     if measure == "summary":
         return _summary(session, graph)
     if measure == "components":
-        return _components(G, slice_, key_of)
+        return _components(graph.arcs, slice_, key_of)
     if measure == "cut-points":
-        return _cuts(G, slice_, key_of)
+        return _cuts(graph.G, slice_, key_of)
     if measure == "cliques":
-        return _cliques(G, slice_, key_of, options)
+        return _cliques(graph.G, slice_, key_of, options)
     if measure == "communities":
-        return _communities(G, slice_, key_of, options)
-    return _centrality(G, measure, slice_, key_of, options)
+        return _communities(graph.G, slice_, key_of, options)
+    return _centrality(graph.arcs, measure, slice_, key_of, options)
 
 
 # --- one function per page -------------------------------------------------------------------

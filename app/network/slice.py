@@ -17,7 +17,7 @@ from datetime import date
 from typing import Any, NamedTuple
 
 import networkx as nx
-from sqlalchemy import ColumnElement, and_, func, or_, select
+from sqlalchemy import ColumnElement, and_, case, func, or_, select
 from sqlalchemy.orm import Session, aliased
 
 from app.dates import DateError, parse_interval
@@ -27,6 +27,7 @@ from app.sql import distinct_list
 
 __all__ = [
     "EvidenceRow",
+    "NeighbourTotal",
     "RelationTotal",
     "ResolvedSlice",
     "Slice",
@@ -35,11 +36,15 @@ __all__ = [
     "TieEvidence",
     "build_graph",
     "collection_counts",
+    "arc_counts",
     "graph_from_totals",
+    "node_set",
+    "neighbour_totals",
     "relation_evidence",
     "relation_totals",
     "resolve_slice",
     "slice_totals",
+    "tie_arcs",
     "ties_from_evidence",
 ]
 
@@ -342,9 +347,10 @@ def _evidence_query(resolved: ResolvedSlice, columns: list[Any], persons: Iterab
         select(*columns)
         .join(Relation, Attestation.relation_id == Relation.id)
         .join(Source, Attestation.source_id == Source.id)
-        .outerjoin(Collection, Source.collection_id == Collection.id)
         .where(*attestation_conditions(resolved))
     )
+    if resolved.keep_repository_ids or resolved.omit_repository_ids:  # the only conditions on collection
+        query = query.outerjoin(Collection, Source.collection_id == Collection.id)
     if resolved.kind_ids is not None:
         query = query.where(Relation.kind_id.in_(resolved.kind_ids))
     if s.unidentified == "drop":
@@ -415,6 +421,39 @@ def relation_totals(session: Session, resolved: ResolvedSlice, *, persons: Itera
     return [RelationTotal(*row) for row in session.connection().execute(query).all()]
 
 
+class NeighbourTotal(NamedTuple):
+    """The ties of one person to a set of persons in the slice, summed in SQL over relations."""
+
+    person: int
+    relations: int
+    attestations: int  # summed over the relations
+    documents: int  # each relation's distinct documents, summed over the relations
+
+
+def neighbour_totals(session: Session, resolved: ResolvedSlice, *, persons: Iterable[int]) -> list[NeighbourTotal]:
+    """Return every person tied to one of ``persons`` (either way) with the sums of those ties.
+
+    Each relation between the person and one of ``persons`` counts once, with its attestations
+    and distinct documents in the slice, as ``relation_totals`` counts them; the sums are made
+    by the database (grouped by the other person), so a set of hubs with 90,000 relations costs
+    one row per neighbour. ``persons`` themselves may appear too (tied to each other or to
+    themselves, counted for one end only); callers leave them out.
+    """
+    ids = sorted(set(persons))
+    document = func.coalesce(Source.copy_of_id, Source.id)
+    columns = [Relation.person_a_id.label("a"), Relation.person_b_id.label("b"),
+               func.count(Attestation.id).label("attestations"), func.count(document.distinct()).label("documents")]
+    per_relation = _evidence_query(resolved, columns, ids, False).group_by(Relation.id)
+    if resolved.slice.min_collections > 1:
+        per_relation = per_relation.having(func.count(Source.collection_id.distinct()) >= resolved.slice.min_collections)
+    r = per_relation.subquery()
+    # One pass over the relations (a UNION of two selects would count them twice): a relation
+    # between two of ``persons`` is counted for one of its ends only, and callers leave those out.
+    other = case((r.c.a.in_(ids), r.c.b), else_=r.c.a).label("other")
+    query = select(other, func.count(), func.sum(r.c.attestations), func.sum(r.c.documents)).group_by(other)
+    return [NeighbourTotal(*row) for row in session.connection().execute(query).all()]
+
+
 class SliceTotal(NamedTuple):
     """One relation kept by the slice, counted in SQL, with its documents as comma-separated ids."""
 
@@ -428,19 +467,22 @@ class SliceTotal(NamedTuple):
     document_list: str  # read only where one tie holds several relations
 
 
-def slice_totals(session: Session, resolved: ResolvedSlice) -> list[SliceTotal]:
+def slice_totals(
+    session: Session, resolved: ResolvedSlice, *, persons: Iterable[int] | None = None, both_ends: bool = False
+) -> list[SliceTotal]:
     """Return every relation the slice keeps with its counts, one row per relation.
 
     The measure pages build their graph from these (see ``graph_from_totals``): on a slice of
     200,000 attestations reading one row per relation instead of one per attestation saves
-    seconds, and attestation ids are fetched later only where a page shows them.
+    seconds, and attestation ids are fetched later only where a page shows them. ``persons``
+    and ``both_ends`` narrow the relations as in ``relation_evidence``.
     """
     document = func.coalesce(Source.copy_of_id, Source.id)
     columns = [
         Relation.id, Relation.kind_id, Relation.kind_directed, Relation.person_a_id, Relation.person_b_id,
         func.count(Attestation.id), func.count(document.distinct()), distinct_list(document),
     ]
-    query = _evidence_query(resolved, columns, None, False).group_by(Relation.id)
+    query = _evidence_query(resolved, columns, persons, both_ends).group_by(Relation.id)
     if resolved.slice.min_collections > 1:
         query = query.having(func.count(Source.collection_id.distinct()) >= resolved.slice.min_collections)
     return [SliceTotal(*row) for row in session.connection().execute(query).all()]
@@ -556,21 +598,19 @@ def graph_from_evidence(session: Session, resolved: ResolvedSlice, rows: list[Ev
             attestation_ids=sorted(arc["attestation_ids"]), relation_ids=sorted(arc["relation_ids"]), kinds=sorted(arc["kinds"]),
             document_ids=sorted(arc["documents"]),
         )
-    for node in merge_nodes(_node_set(session, resolved, rows, tied), same_as):
+    for node in merge_nodes(node_set(session, resolved, rows, tied), same_as):
         G.add_node(node)
     return G
 
 
-def graph_from_totals(session: Session, resolved: ResolvedSlice, totals: list[SliceTotal]) -> nx.Graph | nx.DiGraph:
-    """Return the graph of the slice from per-relation counts, for the measures.
+def tie_arcs(resolved: ResolvedSlice, totals: list[SliceTotal]) -> tuple[dict[tuple[int, int], list[SliceTotal]], list[SliceTotal]]:
+    """Return the arcs of the slice's graph, each with the relations behind it, and the relations kept.
 
-    The same nodes, edges, ``weight``, ``attestations``, ``documents``, ``relation_ids`` and
-    ``kinds`` as ``graph_from_evidence``, without attestation or document ids: a tie's
-    documents are counted exactly (the union of its relations' documents when it holds several).
+    The rules of ``graph_from_evidence``: under ``direction=recorded`` an arc per direction (an
+    undirected kind both ways), otherwise a tie per pair (smaller id first); ``reciprocal`` keeps
+    a directed relation only when its kind is attested the other way; loops unless ``loops=drop``.
     """
     s = resolved.slice
-    same_as = same_as_mapping(session, s.same_as)
-    totals = merge_rows(totals, same_as)
     directed_view = s.direction == "recorded"
     tied = totals
     if s.direction == "reciprocal":
@@ -584,25 +624,51 @@ def graph_from_totals(session: Session, resolved: ResolvedSlice, totals: list[Sl
         arcs[(a, b) if directed_view or a <= b else (b, a)].append(row)
         if directed_view and not row.directed and a != b:
             arcs[(b, a)].append(row)
+    return arcs, tied
+
+
+def arc_counts(rows: list[SliceTotal]) -> tuple[int, int]:
+    """Return the attestations and distinct documents of an arc (the union where it holds several relations)."""
+    if len(rows) == 1:
+        return rows[0].attestations, rows[0].documents
+    return sum(r.attestations for r in rows), len({d for r in rows for d in r.document_list.split(",")})
+
+
+def graph_from_totals(
+    session: Session | None, resolved: ResolvedSlice, totals: list[SliceTotal], *,
+    arcs: tuple[dict[tuple[int, int], list[SliceTotal]], list[SliceTotal]] | None = None, nodes: Iterable[int] | None = None,
+) -> nx.Graph | nx.DiGraph:
+    """Return the graph of the slice from per-relation counts, for the measures.
+
+    The same nodes, edges, ``weight``, ``attestations``, ``documents``, ``relation_ids`` and
+    ``kinds`` as ``graph_from_evidence``, without attestation or document ids: a tie's
+    documents are counted exactly (the union of its relations' documents when it holds several).
+    ``arcs`` (from ``tie_arcs``, on rows already merged under ``same_as``) and ``nodes`` (from
+    ``node_set``) may be given when already made;
+    without ``nodes`` the session reads the node set.
+    """
+    s = resolved.slice
+    same_as = same_as_mapping(session, s.same_as) if session is not None else {}
+    if arcs is None:
+        totals = merge_rows(totals, same_as)
+    by_arc, tied = arcs if arcs is not None else tie_arcs(resolved, totals)
 
     def edge(u: int, v: int, rows: list[SliceTotal]) -> tuple[int, int, dict[str, Any]]:
+        attestations, documents = arc_counts(rows)
         if len(rows) == 1:
-            row = rows[0]
-            attestations, documents, relations, kinds = row.attestations, row.documents, [row.relation_id], [row.kind_id]
+            relations, kinds = [rows[0].relation_id], [rows[0].kind_id]
         else:
-            attestations = sum(r.attestations for r in rows)
-            documents = len({d for r in rows for d in r.document_list.split(",")})
             relations, kinds = sorted({r.relation_id for r in rows}), sorted({r.kind_id for r in rows})
         return u, v, {"weight": tie_weight(attestations, documents, s.weight), "attestations": attestations,
                       "documents": documents, "relation_ids": relations, "kinds": kinds}
 
-    G: nx.Graph = nx.DiGraph() if directed_view else nx.Graph()
-    G.add_edges_from(edge(u, v, rows) for (u, v), rows in arcs.items())
-    G.add_nodes_from(merge_nodes(_node_set(session, resolved, totals, tied), same_as))  # type: ignore[arg-type]
+    G: nx.Graph = nx.DiGraph() if s.direction == "recorded" else nx.Graph()
+    G.add_edges_from(edge(u, v, rows) for (u, v), rows in by_arc.items())
+    G.add_nodes_from(nodes if nodes is not None else merge_nodes(node_set(session, resolved, totals, tied), same_as))  # type: ignore[arg-type]
     return G
 
 
-def _node_set(session: Session, resolved: ResolvedSlice, rows: list[EvidenceRow], tied: list[EvidenceRow]) -> set[int]:
+def node_set(session: Session, resolved: ResolvedSlice, rows: Sequence[Any], tied: Sequence[Any]) -> set[int]:
     """Return the persons of the node set: with a tie drawn, with any evidence in the slice, or all."""
     s = resolved.slice
     if s.nodes == "ties":

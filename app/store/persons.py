@@ -275,7 +275,9 @@ class RelationKindGroup:
     role_b: str | None
     """Role of the second end."""
     relations: list[PersonRelation]
-    """The relations, by the other person's name."""
+    """The relations, by the other person's name (with a limit, only the strongest; see ``total``)."""
+    total: int
+    """How many relations of this kind the person has (also those not listed)."""
 
 
 @dataclass(frozen=True)
@@ -519,7 +521,13 @@ def person_refs(*, session: Session, person_ids: Iterable[int]) -> dict[int, Per
     ids = set(person_ids)
     if not ids:
         return {}
-    return {p.id: _ref(p) for p in session.scalars(select(Person).where(Person.id.in_(ids)))}
+    columns = (Person.id, Person.key, Person.name, Person.kind, Person.unidentified)
+    wanted = sorted(ids)
+    refs: dict[int, PersonRef] = {}
+    for start in range(0, len(wanted), 500):  # stays under SQLite's limit of bound parameters
+        for pid, key, name, kind, unidentified in session.execute(select(*columns).where(Person.id.in_(wanted[start : start + 500]))):
+            refs[pid] = PersonRef(key=key, name=name, kind=kind, unidentified=unidentified)
+    return refs
 
 
 def person_id(*, session: Session, key: str) -> int | None:
@@ -537,12 +545,17 @@ def identifier_url(scheme: str, value: str) -> str | None:
     return pattern.format(value="".join(value.split())) if pattern else None
 
 
-def get_person(*, session: Session, key: str, in_slice: Mapping[int, int] | None = None) -> PersonDetail | None:
+def get_person(
+    *, session: Session, key: str, in_slice: Mapping[int, int] | None = None, relation_limit: int | None = None
+) -> PersonDetail | None:
     """Return everything recorded about the person whose current key is ``key`` (None if unknown).
 
     ``in_slice`` maps relation ids to how many of their attestations the current slice keeps;
     when given, each relation says so. Deleted attestations never count, and relations,
-    memberships and facts left without a live attestation are not listed.
+    memberships and facts left without a live attestation are not listed. With
+    ``relation_limit``, each kind lists only that many relations, those with the most
+    attestations (ties at the cut by the other person's name, as the page orders them), and says
+    how many it has: a hub's thousands of relations are counted in SQL, not loaded.
     """
     person = session.scalar(select(Person).where(Person.key == key))
     if person is None:
@@ -558,7 +571,7 @@ def get_person(*, session: Session, key: str, in_slice: Mapping[int, int] | None
         degree=degree_counts(session=session, person_ids=[person.id]).get(person.id, 0),
         memberships=_memberships(session, person.id),
         facts=_facts(session, person.id),
-        relations=_relations(session, person, in_slice),
+        relations=_relations(session, person, in_slice, relation_limit),
     )  # fmt: skip
 
 
@@ -620,7 +633,9 @@ def _facts(session: Session, pid: int) -> list[PersonFactRow]:
 FACT_ORDER = {kind: n for n, kind in enumerate(("birth", "death", "gender", "title", "occupation", "residence", "other"))}
 
 
-def _relations(session: Session, person: Person, in_slice: Mapping[int, int] | None) -> list[RelationKindGroup]:
+def _relations(
+    session: Session, person: Person, in_slice: Mapping[int, int] | None, limit: int | None
+) -> list[RelationKindGroup]:
     rows = session.execute(
         select(Relation.id, Relation.kind_id, Relation.person_a_id, Relation.person_b_id,
                func.count(Attestation.id), _first_day(), _last_day(), func.min(CERTAINTY_RANK))
@@ -630,31 +645,67 @@ def _relations(session: Session, person: Person, in_slice: Mapping[int, int] | N
     ).all()  # fmt: skip
     if not rows:
         return []
-    others = person_refs(session=session, person_ids=[r[2] if r[3] == person.id else r[3] for r in rows])
-    kinds = {k.id: k for k in session.scalars(select(RelationKind).where(RelationKind.id.in_({r[1] for r in rows})))}
+    by_kind: dict[int, list] = defaultdict(list)
+    for row in rows:
+        by_kind[row[1]].append(row)
+    totals = {kind_id: len(found) for kind_id, found in by_kind.items()}
+    kinds = {k.id: k for k in session.scalars(select(RelationKind).where(RelationKind.id.in_(set(by_kind))))}
+    if limit is not None:
+        by_kind = {kind_id: _strongest_rows(session, person.id, found, limit, directed=kinds[kind_id].directed)
+                   for kind_id, found in by_kind.items()}  # fmt: skip
+    listed = [row for found in by_kind.values() for row in found]
+    others = person_refs(session=session, person_ids=[r[2] if r[3] == person.id else r[3] for r in listed])
     grouped: dict[int, list[PersonRelation]] = defaultdict(list)
-    for relation_id, kind_id, a, b, count, first, last, grade in rows:
+    for relation_id, kind_id, a, b, count, first, last, grade in listed:
         kind = kinds[kind_id]
         other = others[b if a == person.id else a]
-        if a == b:
-            direction = "self"
-        elif kind.directed:
-            direction = "to" if a == person.id else "from"
-        else:
-            direction = None
-        own_role, other_role = (kind.role_a, kind.role_b) if a == person.id else (kind.role_b, kind.role_a)
         grouped[kind_id].append(PersonRelation(
-            relation_id=relation_id, other=other, direction=direction,
-            own_role=own_role if kind.directed else None, other_role=other_role if kind.directed else None,
+            relation_id=relation_id, other=other, direction=_direction(a, b, person.id, kind.directed),
+            own_role=(kind.role_a if a == person.id else kind.role_b) if kind.directed else None,
+            other_role=(kind.role_b if a == person.id else kind.role_a) if kind.directed else None,
             attestations=count, in_slice=None if in_slice is None else in_slice.get(relation_id, 0),
             earliest=first, latest=last, span=year_span(first, last), certainty=CERTAINTIES[grade],
         ))  # fmt: skip
-    direction_order = {"self": 0, "to": 1, None: 1, "from": 2}
     return [
         RelationKindGroup(
             kind_key=kinds[kind_id].key, label=kinds[kind_id].label, directed=kinds[kind_id].directed,
             role_a=kinds[kind_id].role_a, role_b=kinds[kind_id].role_b,
-            relations=sorted(relations, key=lambda r: (fold(r.other.name), r.other.key, direction_order[r.direction])),
+            relations=sorted(relations, key=_by_name), total=totals[kind_id],
         )
         for kind_id, relations in sorted(grouped.items(), key=lambda item: (kinds[item[0]].label.casefold(), item[0]))
     ]  # fmt: skip
+
+
+_DIRECTION_ORDER = {"self": 0, "to": 1, None: 1, "from": 2}
+
+
+def _direction(a: int, b: int, pid: int, directed: bool) -> str | None:
+    if a == b:
+        return "self"
+    if directed:
+        return "to" if a == pid else "from"
+    return None
+
+
+def _by_name(relation: PersonRelation) -> tuple:
+    return fold(relation.other.name), relation.other.key, _DIRECTION_ORDER[relation.direction]
+
+
+def _strongest_rows(session: Session, pid: int, rows: list, limit: int, *, directed: bool) -> list:
+    """Return the ``limit`` rows with the most attestations; those equal at the cut by the other's name.
+
+    The same choice as sorting every relation by name and then, stably, by attestations: only
+    the persons tied at the cut are read to break the tie.
+    """
+    if len(rows) <= limit:
+        return rows
+    cut = sorted((row[4] for row in rows), reverse=True)[limit - 1]
+    kept = [row for row in rows if row[4] > cut]
+    tied = [row for row in rows if row[4] == cut]
+    refs = person_refs(session=session, person_ids=[r[2] if r[3] == pid else r[3] for r in tied])
+
+    def order(row) -> tuple:  # noqa: ANN001
+        ref = refs[row[3] if row[2] == pid else row[2]]
+        return fold(ref.name), ref.key, _DIRECTION_ORDER[_direction(row[2], row[3], pid, directed)]
+
+    return kept + sorted(tied, key=order)[: limit - len(kept)]

@@ -28,10 +28,10 @@ from app.network.measures.cliques import CLIQUE_LIMIT
 from app.network.measures.communities import METHODS
 from app.network.measures.conventions import population_sentence
 from app.network.measures.results import MeasureError
-from app.network.jobs import INLINE_UP_TO, Pending, Worker, needs_worker, outcome_or_job
+from app.network.jobs import INLINE_UP_TO, Pending, Worker, current_job, needs_worker, outcome_or_job
 from app.network.results import SAMPLED, Outcome, get_or_compute_many, peek_outcome
 from app.network.slice import Slice
-from app.store.jobs import JobInfo, get_job_by_id
+from app.store.jobs import JobInfo
 from app.store.network_labels import get_person_label, list_person_labels_by_key
 from app.store.persons import PersonRef
 from app.views.charts import degree_chart
@@ -805,9 +805,9 @@ _JOB = ("The state of a heavy measure computed by the background worker: queued,
         "itself when the job is done; an unknown job number gives 404.")
 
 
-def job_status_view(*, session: Session, job_id: int) -> BackgroundJob:
-    """Return the state of one background job (HTTPException 404 when unknown)."""
-    job = get_job_by_id(session=session, job_id=job_id)
+def job_status_view(*, database: Database, job_id: int) -> BackgroundJob:
+    """Return the state of one background job (HTTPException 404 when unknown); a dead worker's job is failed."""
+    job = current_job(database, job_id)
     if job is None:
         raise HTTPException(404, f"There is no background job number {job_id}.")
     return job_view(job, job.measure)
@@ -815,8 +815,8 @@ def job_status_view(*, session: Session, job_id: int) -> BackgroundJob:
 
 @router.get("/network/jobs/{job_id}", response_class=HTMLResponse, summary="A background job's state (page fragment)",
             description=_JOB + " JSON: `/api/network/jobs/{job_id}`.")
-def job_status_page(request: Request, job_id: int, session: SessionDep) -> Response:
-    view = job_status_view(session=session, job_id=job_id)
+def job_status_page(request: Request, job_id: int, database: DatabaseDep) -> Response:
+    view = job_status_view(database=database, job_id=job_id)
     response = render(request, view, template="network_job.html", partial="_network_job.html")
     if view.state == "done" and request.headers.get("HX-Request"):
         response.headers["HX-Refresh"] = "true"  # the waiting page reloads and finds the stored result
@@ -825,8 +825,8 @@ def job_status_page(request: Request, job_id: int, session: SessionDep) -> Respo
 
 @router.get("/api/network/jobs/{job_id}", response_model=BackgroundJob, summary="A background job's state (JSON)",
             description=_JOB + " The page fragment: `/network/jobs/{job_id}`.")
-def job_status_api(request: Request, job_id: int, session: SessionDep) -> Response:
-    return render(request, job_status_view(session=session, job_id=job_id), template="network_job.html",
+def job_status_api(request: Request, job_id: int, database: DatabaseDep) -> Response:
+    return render(request, job_status_view(database=database, job_id=job_id), template="network_job.html",
                   partial="_network_job.html")
 
 

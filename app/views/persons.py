@@ -2,7 +2,6 @@
 
 from __future__ import annotations
 
-from collections import Counter
 from dataclasses import dataclass, field
 from typing import Any
 
@@ -10,7 +9,7 @@ from fastapi import APIRouter, Depends, HTTPException, Request
 from fastapi.responses import HTMLResponse, RedirectResponse, Response
 from sqlalchemy.orm import Session
 
-from app.network.slice import Slice, relation_evidence, resolve_slice
+from app.network.slice import Slice, relation_totals, resolve_slice
 from app.store.persons import (
     PERSON_SORTS,
     PersonDetail,
@@ -63,7 +62,7 @@ class PersonPage:
     ego: Any | None = None
     """The ego network panel drawn around the person (filled in by the ego view; None when not drawn)."""
     relation_limit: int | None = RELATION_LIMIT
-    """How many relations of each kind the page lists (those with most attestations); None: all. The JSON lists all."""
+    """How many relations of each kind are listed at most (those with most attestations); None: all. The JSON lists all."""
     same_as: list[LinkedPerson] = field(default_factory=list)
     """Persons recorded as possibly the same as this one (short of a merge), with the note."""
 
@@ -80,23 +79,29 @@ def persons_view(*, session: Session, q: str = "", sort: str | None = None, page
     return PersonsPage(result=result, sorts=list(PERSON_SORTS))
 
 
-def person_view(*, session: Session, key: str, slice_: Slice, relations: str | None = None) -> PersonPage:
-    """Return the view-model of one person's page (the key must be current: see person_or_redirect)."""
+def person_view(
+    *, session: Session, key: str, slice_: Slice, relations: str | None = None, every_relation: bool = False
+) -> PersonPage:
+    """Return the view-model of one person's page (the key must be current: see person_or_redirect).
+
+    The page lists ``RELATION_LIMIT`` relations of each kind unless ``relations=all``; the JSON
+    twin (``every_relation``) lists every one. Only the listed relations are read in full.
+    """
+    if relations not in (None, "", "all"):
+        raise BadParameter("relations", relations, "all (list every relation of each kind)")
+    limit = None if every_relation or relations == "all" else RELATION_LIMIT
     resolved = resolve_slice(session, slice_)
     sliced = slice_ != Slice()
     in_slice = None
     if sliced:
         pid = person_id(session=session, key=key)
-        in_slice = Counter(row.relation_id for row in relation_evidence(session, resolved, persons=[pid]))
-    person = get_person(session=session, key=key, in_slice=in_slice)
+        in_slice = {row.relation_id: row.attestations for row in relation_totals(session, resolved, persons=[pid])}
+    person = get_person(session=session, key=key, in_slice=in_slice, relation_limit=limit)
     if person is None:
         raise HTTPException(status_code=404, detail=f"no person with key '{key}'")
     ego = ego_panel(session=session, person_key=key, slice=slice_, radius=1)
-    if relations not in (None, "", "all"):
-        raise BadParameter("relations", relations, "all (list every relation of each kind)")
     return PersonPage(person=person, slice=slice_, slice_description=slice_.describe(), sliced=sliced, ego=ego,
-                      relation_limit=None if relations == "all" else RELATION_LIMIT,
-                      same_as=list_person_links(session=session, key=key))
+                      relation_limit=limit, same_as=list_person_links(session=session, key=key))
 
 
 def person_or_redirect(request: Request, session: Session, key: str, parameter: str = "key") -> PersonRef | Response:
@@ -172,4 +177,5 @@ def person_api(request: Request, key: str, session: SessionDep, slice_: SliceDep
     current = person_or_redirect(request, session, key)
     if isinstance(current, Response):
         return current
-    return render(request, person_view(session=session, key=current.key, slice_=slice_, relations=relations), template="person.html")
+    return render(request, person_view(session=session, key=current.key, slice_=slice_, relations=relations,
+                                         every_relation=True), template="person.html")

@@ -21,8 +21,9 @@ from collections.abc import Callable, Hashable
 from typing import Any
 
 import networkx as nx
+import numpy as np
 
-from app.network.measures import kernels
+from app.network.measures import arcs, kernels
 from app.network.measures.conventions import (
     DISTANCE,
     DISTANCE_RULE,
@@ -97,7 +98,7 @@ def degree(G: nx.Graph, *, loops: str = "drop", node_set: str | None = None) -> 
     (3.0, 1.0, 0.3333333333333333)
     """
     H = working_graph(G, loops=loops, undirected=True)
-    raw = {v: float(d) for v, d in H.degree()}
+    raw = _degrees(H)
     values, reasons = _per_other_person(raw, len(H))
     return _result("degree", G, H, values, raw, reasons, loops=loops, node_set=node_set, undirected=True,
                    text="value = the number of persons a person is tied to ÷ (n − 1); raw = that number.")
@@ -138,7 +139,7 @@ def strength(G: nx.Graph, *, weight: str | None = "weight", loops: str = "drop",
     5.0
     """
     H = working_graph(G, weight=weight, loops=loops, undirected=True)
-    raw = {v: float(d) for v, d in H.degree(weight=WEIGHT)}
+    raw = _degrees(H, weighted=True)
     return _result("strength", G, H, dict(raw), raw, {}, loops=loops, node_set=node_set, undirected=True,
                    text="value = raw = the sum of the weights of a person's ties (the slice's weight); not normalized.")
 
@@ -314,17 +315,27 @@ def eigenvector(G: nx.Graph, *, weight: str | None = "weight", loops: str = "dro
     0.5
     """
     H = working_graph(G, weight=weight, loops=loops, undirected=True)
-    isolates = [v for v in H if H.degree(v) == 0]
+    degree_of = _degrees(H)
+    isolates = [v for v in H if degree_of[v] == 0]
     values: Values = dict.fromkeys(H, 0.0)
     reasons = dict.fromkeys(isolates, "no ties in the slice: 0")
-    core = induced(H, {v for v in H if H.degree(v) > 0})
+    if isinstance(H, arcs.ArcGraph):
+        core: Any = H.subgraph(np.asarray([degree_of[v] > 0 for v in H], dtype=bool))
+    else:
+        core = induced(H, {v for v in H if degree_of[v] > 0})
     if len(core):
         try:
-            values.update(nx.eigenvector_centrality(core, weight=WEIGHT, max_iter=1000))
-        except nx.PowerIterationFailedConvergence:
+            if isinstance(core, arcs.ArcGraph):
+                values.update(arcs.eigenvector(core, max_iter=1000))
+            else:
+                values.update(nx.eigenvector_centrality(core, weight=WEIGHT, max_iter=1000))
+        except (nx.PowerIterationFailedConvergence, arcs.PowerIterationFailed):
             values.update(dict.fromkeys(core, None))
             reasons.update(dict.fromkeys(core, "the power iteration did not converge in 1000 steps"))
-    several = len(core) and not nx.is_connected(core)
+    if isinstance(core, arcs.ArcGraph):
+        several = len(core) and len(set(arcs.component_labels(core).tolist())) > 1
+    else:
+        several = len(core) and not nx.is_connected(core)
     text = ("value = raw = the principal eigenvector of the weighted adjacency of the undirected view, "
             "scaled to Euclidean length 1 (networkx).")
     if several:
@@ -359,12 +370,16 @@ def pagerank(
     reasons: dict[Hashable, str] = {}
     if len(H):
         try:
-            values = dict(nx.pagerank(H, alpha=alpha, weight=WEIGHT, tol=PAGERANK_TOLERANCE, max_iter=1000))
-        except nx.PowerIterationFailedConvergence:
+            if isinstance(H, arcs.ArcGraph):
+                values = arcs.pagerank(H, alpha=alpha, tol=PAGERANK_TOLERANCE, max_iter=1000)
+            else:
+                values = dict(nx.pagerank(H, alpha=alpha, weight=WEIGHT, tol=PAGERANK_TOLERANCE, max_iter=1000))
+        except (nx.PowerIterationFailedConvergence, arcs.PowerIterationFailed):
             values = dict.fromkeys(H, None)
             reasons = dict.fromkeys(H, "the power iteration did not converge")
+    degree_of = _degrees(H)
     for node in H:
-        if H.degree(node) == 0:
+        if degree_of[node] == 0:
             reasons.setdefault(node, "no ties in the slice: only its share of the random jump")
     return _result("pagerank", G, H, values, dict(values), reasons, loops=loops, node_set=node_set, undirected=False,
                    text=f"value = raw = PageRank with damping {alpha} and the slice's weight (networkx, iterated until the values "
@@ -424,15 +439,14 @@ def _directed_degree(
         raise MeasureError("measure", measure, "on an undirected slice one of " + ", ".join(undirected)
                            + f" ({measure} needs direction=recorded)")
     H = working_graph(G, weight=weight if weighted else None, loops=loops)
-    counts = H.in_degree if measure.startswith("in_") else H.out_degree
     way = "reach" if measure.startswith("in_") else "leave"
     if weighted:
-        raw = {v: float(d) for v, d in counts(weight=WEIGHT)}
+        raw = _degrees(H, weighted=True, way=measure[:measure.index("_")])
         values: Values = dict(raw)
         reasons: dict[Hashable, str] = {}
         text = f"value = raw = the sum of the weights of the arcs that {way} a person (the slice's weight); not normalized."
     else:
-        raw = {v: float(d) for v, d in counts()}
+        raw = _degrees(H, way=measure[:measure.index("_")])
         values, reasons = _per_other_person(raw, len(H))
         text = f"value = the number of arcs that {way} a person ÷ (n − 1); raw = that number."
     return _result(measure, G, H, values, raw, reasons, loops=loops, node_set=node_set, undirected=False, text=text)
@@ -444,7 +458,7 @@ def _closeness(G: nx.Graph, measure: str, *, weight: str | None, loops: str, nod
     H = working_graph(G, weight=weight if weighted else None, loops=loops)
     distance = DISTANCE if weighted else None
     if weighted:
-        with_distances(H)
+        H = with_distances(H)
     if engine == "igraph":
         improved, within = kernels.closeness(H, distance=distance)
     else:
@@ -476,7 +490,7 @@ def _betweenness(
     weighted = measure.startswith("weighted")
     H = working_graph(G, weight=weight if weighted else None, loops=loops)
     if weighted:
-        with_distances(H)
+        H = with_distances(H)
     distance = DISTANCE if weighted else None
     n = len(H)
     directed = H.is_directed()
@@ -570,8 +584,18 @@ def _per_other_person(raw: dict[Hashable, float], n: int) -> tuple[Values, dict[
     return {v: r / (n - 1) for v, r in raw.items()}, {}
 
 
+def _degrees(H: nx.Graph | arcs.ArcGraph, *, weighted: bool = False, way: str = "all") -> dict[Hashable, float]:
+    """Return each node's degree (or strength with ``weighted``): ``all``, ``in`` or ``out``."""
+    if isinstance(H, arcs.ArcGraph):
+        return arcs.degrees(H, weighted=weighted, way=way)
+    view = {"all": H.degree, "in": getattr(H, "in_degree", None), "out": getattr(H, "out_degree", None)}[way]
+    return {v: float(d) for v, d in view(weight=WEIGHT if weighted else None)}
+
+
 def _unreached(H: nx.Graph) -> list[Hashable]:
     """Return the nodes that no path reaches (no other person reaches them, on a directed graph)."""
+    if isinstance(H, arcs.ArcGraph):
+        return arcs.unreached(H)
     if H.is_directed():
         return [v for v in H if not any(u != v for u in H.predecessors(v))]
     return [v for v in H if not any(u != v for u in H.neighbors(v))]

@@ -13,7 +13,9 @@ from collections.abc import Hashable, Iterable
 from dataclasses import dataclass
 
 import networkx as nx
+import numpy as np
 
+from app.network.measures.arcs import ArcGraph, component_labels, unreached
 from app.network.measures.conventions import direction_sentence, loops_sentence, population_sentence, working_graph
 from app.network.measures.results import node_key
 
@@ -72,6 +74,8 @@ def components(G: nx.Graph, *, loops: str = "drop", node_set: str | None = None)
     """
     H = working_graph(G, loops=loops)
     n = len(H)
+    if isinstance(H, ArcGraph):
+        return _from_arrays(G, H, loops=loops, node_set=node_set)
     if H.is_directed():
         weak = _listed(H, nx.weakly_connected_components(H))
         strong: list[Component] | None = _listed(H, nx.strongly_connected_components(H))
@@ -82,6 +86,11 @@ def components(G: nx.Graph, *, loops: str = "drop", node_set: str | None = None)
         strong = None
         kinds = "Components are listed largest first."
     isolates = sorted((v for v in H if all(u == v for u in nx.all_neighbors(H, v))), key=node_key)
+    return _result(G, weak, strong, isolates, n, kinds, loops=loops, node_set=node_set)
+
+
+def _result(G: nx.Graph | ArcGraph, weak: list[Component], strong: list[Component] | None, isolates: list[Hashable],
+            n: int, kinds: str, *, loops: str, node_set: str | None) -> ComponentsResult:
     conventions = " ".join([
         population_sentence(n, node_set),
         direction_sentence(G, undirected_measure=False),
@@ -93,6 +102,31 @@ def components(G: nx.Graph, *, loops: str = "drop", node_set: str | None = None)
         components=weak, strong=strong, isolates=isolates, n=n,
         largest_share=weak[0].size / n if n else None, conventions=conventions,
     )
+
+
+def _from_arrays(G: ArcGraph, H: ArcGraph, *, loops: str, node_set: str | None) -> ComponentsResult:
+    """``components`` on arrays: the same parts, ties and order, from scipy's component labels."""
+    weak = _listed_labels(H, component_labels(H))
+    strong = _listed_labels(H, component_labels(H, strong=True)) if H.directed else None
+    kinds = ("Weakly connected components (ties in either direction) and strongly connected ones "
+             "(every member reaches every other along the arcs) are both listed, largest first."
+             if H.directed else "Components are listed largest first.")
+    isolates = sorted(unreached(H.with_(source=H.source, target=H.target, weight=H.weight, directed=False)), key=node_key)
+    return _result(G, weak, strong, isolates, len(H), kinds, loops=loops, node_set=node_set)
+
+
+def _listed_labels(H: ArcGraph, labels: np.ndarray) -> list[Component]:
+    """Return the components of these labels (one per person), as ``_listed`` orders them."""
+    count = int(labels.max()) + 1 if len(labels) else 0
+    inside = labels[H.source] == labels[H.target]
+    ties = np.bincount(labels[H.source[inside]], minlength=count).tolist()
+    groups: list[list[Hashable]] = [[] for _ in range(count)]
+    for node, label in zip(H.nodes, labels.tolist()):
+        groups[label].append(node)
+    for members in groups:
+        members.sort(key=node_key)
+    order = sorted(range(count), key=lambda i: (-len(groups[i]), -ties[i], node_key(groups[i][0])))
+    return [Component(number=rank, size=len(groups[i]), members=groups[i], ties=ties[i]) for rank, i in enumerate(order, 1)]
 
 
 def _listed(H: nx.Graph, parts: Iterable[set[Hashable]]) -> list[Component]:

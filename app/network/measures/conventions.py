@@ -15,7 +15,9 @@ import math
 from typing import Any
 
 import networkx as nx
+import numpy as np
 
+from app.network.measures.arcs import ArcGraph
 from app.network.measures.results import MeasureError, node_key
 
 __all__ = [
@@ -79,6 +81,12 @@ def working_graph(
     opposite arcs one tie of the larger weight. Self-loops are dropped unless ``loops="keep"``.
     """
     check_loops(loops)
+    if isinstance(G, ArcGraph):
+        if weight is not None:
+            _checked_weights(G.weight)
+        order = sorted(range(len(G)), key=lambda i: node_key(G.nodes[i]))
+        return G.working(weighted=weight is not None, loops=loops, undirected=undirected,
+                         order=None if order == list(range(len(G))) else order)
     as_undirected = undirected or not G.is_directed()
     H: nx.Graph = nx.Graph() if as_undirected else nx.DiGraph()
     H.add_nodes_from(sorted(G, key=node_key))
@@ -141,6 +149,9 @@ def distance_units(weight: float) -> int:
 
 def with_distances(H: nx.Graph) -> nx.Graph:
     """Set ``distance`` (whole units of 1/weight) on every edge of a working graph; return it."""
+    if isinstance(H, ArcGraph):
+        return H.with_(source=H.source, target=H.target, weight=H.weight,
+                       distance=np.maximum(1, np.rint(DISTANCE_SCALE / H.weight)).astype(np.int64))
     for _, _, data in H.edges(data=True):
         data[DISTANCE] = distance_units(data[WEIGHT])
     return H
@@ -179,6 +190,12 @@ def _checked_weight(w: Any) -> float:
     if not math.isfinite(value) or value <= 0:
         raise MeasureError("weight", w, "a positive number on every tie")
     return value
+
+
+def _checked_weights(weights: np.ndarray) -> None:
+    bad = ~(np.isfinite(weights) & (weights > 0))
+    if bad.any():
+        raise MeasureError("weight", float(weights[bad][0]), "a positive number on every tie")
 
 
 def _merge_arcs(a: dict[str, Any], b: dict[str, Any]) -> dict[str, Any]:

@@ -36,6 +36,9 @@ import igraph as ig
 import networkx as nx
 import numpy as np
 
+from app.network.measures.arcs import ArcGraph
+from app.network.measures.conventions import DISTANCE
+
 __all__ = [
     "betweenness",
     "betweenness_by_source",
@@ -52,8 +55,8 @@ __all__ = [
 _RNG_LOCK = threading.Lock()
 
 
-def to_igraph(G: nx.Graph, *, attribute: str | None = None) -> tuple[ig.Graph, list[Hashable]]:
-    """Return G as an igraph Graph (vertex i is ``nodes[i]``) and the list of nodes.
+def to_igraph(G: nx.Graph | ArcGraph, *, attribute: str | None = None) -> tuple[ig.Graph, list[Hashable]]:
+    """Return G (a networkx graph or an ArcGraph) as an igraph Graph (vertex i is ``nodes[i]``) and the list of nodes.
 
     Examples
     --------
@@ -61,6 +64,11 @@ def to_igraph(G: nx.Graph, *, attribute: str | None = None) -> tuple[ig.Graph, l
     >>> g.vcount(), g.ecount(), nodes
     (3, 2, ['a', 'b', 'c'])
     """
+    if isinstance(G, ArcGraph):  # arrays already: no Python loop over the ties
+        g = ig.Graph(n=len(G), edges=np.column_stack([G.source, G.target]).tolist(), directed=G.directed)
+        if attribute is not None:
+            g.es[attribute] = (G.distance if attribute == DISTANCE else G.weight).astype(float).tolist()
+        return g, G.nodes
     nodes = list(G)
     index = {node: i for i, node in enumerate(nodes)}
     g = ig.Graph(n=len(nodes), edges=[(index[u], index[v]) for u, v in G.edges()], directed=G.is_directed())

@@ -178,8 +178,8 @@ def test_empty_projection_says_so(client: TestClient):
         ("/api/network/two-mode", {"format": "xlsx"}, "format"),
         ("/api/network/two-mode", {"overlap": "sometimes"}, "overlap"),
         ("/api/ties/p-aart/p-bette", {"mode": "groups"}, "mode"),
-        ("/api/network/summary", {"mode": "co-membership"}, "mode"),
-        ("/api/network/centrality", {"mode": "both"}, "mode"),
+        ("/api/network/summary", {"mode": "co-members"}, "mode"),
+        ("/api/network/centrality", {"weighting": "heavy"}, "weighting"),
         ("/api/persons/p-aart/ego", {"mode": "co-membership"}, "mode"),
         ("/api/persons/p-aart", {"mode": "both"}, "mode"),
     ],
@@ -191,7 +191,7 @@ def test_bad_parameters_are_400_naming_them(client: TestClient, path: str, query
 
 
 def test_pages_that_build_relations_only_refuse_co_membership_with_a_pointer(client: TestClient):
-    detail = client.get("/api/network/summary", params={"mode": "co-membership"}).json()["detail"]
+    detail = client.get("/api/persons/p-aart/ego", params={"mode": "co-membership"}).json()["detail"]
     assert "/network/two-mode" in detail and "ties page" in detail
 
 

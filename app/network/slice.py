@@ -53,6 +53,7 @@ CHOICES: dict[str, tuple[str, ...]] = {
     "weight": ("documents", "attestations", "none"),
     "mode": ("relations", "co-membership", "both"),
     "overlap": ("any", "required"),
+    "weighting": ("shared", "newman", "jaccard"),
 }
 REPEATABLE = ("kind", "evidence", "keep_collection", "omit_collection", "keep_repository", "omit_repository")
 NUMBERS = ("min_collections", "max_group_size")
@@ -92,6 +93,7 @@ class Slice:
     mode: str = "relations"
     overlap: str = "any"
     max_group_size: int | None = None
+    weighting: str = "shared"  # of co-membership ties: shared groups, Newman (2001) or Jaccard
 
     @classmethod
     def from_query(cls, query: Mapping[str, Sequence[str]] | Iterable[tuple[str, str]]) -> Slice:
@@ -183,6 +185,12 @@ class Slice:
                       "reciprocal": "reciprocated ties only"}[self.direction])
         if self.mode != "relations":
             parts.append({"co-membership": "ties by shared groups", "both": "relations and ties by shared groups"}[self.mode])
+            if self.overlap == "required":
+                parts.append("shared groups only where the terms overlap")
+            if self.max_group_size is not None:
+                parts.append(f"groups of at most {self.max_group_size} members")
+            if self.weighting != "shared":
+                parts.append({"newman": "Newman's weighting of shared groups", "jaccard": "Jaccard overlap of groups"}[self.weighting])
         return "; ".join(parts)
 
     def with_(self, **changes: Any) -> Slice:

@@ -195,7 +195,7 @@ def _evidence(session: Session, slice_: Slice):  # noqa: ANN202
 
 def two_mode_view(*, session: Session, slice_: Slice, weighting: str | None = None) -> TwoModePage:
     """Return the view-model of the two-mode page; a bad ``weighting`` is a 400."""
-    weighting = _weighting(weighting)
+    weighting = _weighting(weighting or slice_.weighting)
     evidence = _evidence(session, slice_)
     summary = two_mode_summary(bipartite_graph(evidence, weight=slice_.weight))
     people = person_refs(session=session, person_ids=summary.person_degree)

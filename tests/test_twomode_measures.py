@@ -245,3 +245,93 @@ def test_the_stored_result_follows_the_mode(client: TestClient):
     a = ranking(client, "degree")
     b = ranking(client, "degree", mode="relations")
     assert a["p-dirk"]["raw"] == 3 and b["p-dirk"]["raw"] == 0
+
+
+# --- the ego drawing under the modes ------------------------------------------------------------
+
+
+def ego(client: TestClient, key: str, **query: str) -> dict:
+    return api(client, f"/persons/{key}/ego", **query)
+
+
+@pytest.mark.parametrize("weighting", ["shared", "newman", "jaccard"])
+def test_ego_co_membership_ties_weigh_as_the_projection(client: TestClient, weighting: str):
+    # Every tie by shared groups drawn around Evelyn, to her and among her alters, has the weight
+    # of the networkx projection (radius 1, under the cap of 60: all her co-members are drawn).
+    G = reference(weighting)
+    evelyn = woman_key("Evelyn Jefferson")
+    panel = ego(client, evelyn, mode="co-membership", weighting=weighting)
+    assert {n["key"] for n in panel["nodes"]} == {evelyn, *G[evelyn]}
+    drawn = {n["key"] for n in panel["nodes"]}
+    edges = {frozenset((e["source"], e["target"])): e for e in panel["edges"]}
+    assert all(e["co_membership"] and e["kind"] == "co-membership" and not e["directed"] for e in edges.values())
+    assert set(edges) == {frozenset(pair) for pair in G.subgraph(drawn).edges()}
+    for (a, b), weight in ((pair, G.edges[pair]["weight"]) for pair in G.subgraph(drawn).edges()):
+        assert edges[frozenset((a, b))]["weight"] == pytest.approx(weight)
+        assert edges[frozenset((a, b))]["shared_groups"] == len(set(DAVIS[_name(a)]) & set(DAVIS[_name(b)]))
+
+
+def _name(key: str) -> str:
+    return next(w for w in WOMEN if woman_key(w) == key)
+
+
+def test_ego_co_membership_on_the_parish_by_hand(client: TestClient):
+    panel = ego(client, "p-aart", mode="co-membership")
+    assert {n["key"] for n in panel["nodes"]} == set(PARISH)
+    edges = {frozenset((e["source"], e["target"])): e for e in panel["edges"]}
+    assert len(edges) == 6 and edges[frozenset(("p-aart", "p-bette"))]["shared_groups"] == 2
+    # Aart (parish register 1655, guild roll 1655) and Bette (register 1712, roll 1690): four documents.
+    assert edges[frozenset(("p-aart", "p-bette"))]["documents"] == 4
+    required = ego(client, "p-aart", mode="co-membership", overlap="required")
+    assert {n["key"] for n in required["nodes"]} == {"p-aart", "p-bette"}  # only the guild overlaps in time
+
+
+def test_ego_both_draws_relations_and_shared_groups(client: TestClient):
+    panel = ego(client, "p-aart", mode="both")
+    evelyn = woman_key("Evelyn Jefferson")
+    assert {n["key"] for n in panel["nodes"]} == {*PARISH, evelyn}
+    kinds = {(e["source"], e["target"], e["kind"]) for e in panel["edges"]}
+    assert {("p-aart", "p-cas", "letter"), ("p-cas", "p-aart", "letter"), ("p-aart", evelyn, "letter"),
+            ("p-aart", "p-cas", "co-membership")} <= kinds  # fmt: skip
+    assert not any(e["co_membership"] for e in panel["edges"] if evelyn in (e["source"], e["target"]))
+    legend = [k["key"] for k in panel["drawing"]["kinds"]]
+    assert legend[-1] == "co-membership" and "letter" in legend
+
+
+def test_ego_page_links_co_membership_ties_to_the_shared_groups(client: TestClient):
+    response = client.get("/persons/p-aart/ego", params={"mode": "both"})
+    assert response.status_code == 200
+    soup = BeautifulSoup(response.text, "lxml")
+    group_links = soup.select("a.ego-edge-groups")
+    assert len(group_links) == 6
+    assert all("mode=co-membership" in a["href"] and a["href"].startswith("/ties/") for a in group_links)
+    letters = [a for a in soup.select("a.ego-edge") if a["data-kind"] == "letter"]
+    assert letters and all("mode=both" in a["href"] for a in letters)
+    line = group_links[0].select_one("path.ego-line")
+    assert line["stroke"] == "#3d8a78" and line["stroke-dasharray"]
+    assert soup.select_one('.ego-legend li[data-kind="co-membership"]') is not None
+    # The tie opens the groups both share with both memberships' documents.
+    tie = client.get(group_links[0]["href"])
+    assert tie.status_code == 200 and "shared-group" in tie.text
+    svg = client.get("/persons/p-aart/ego.svg", params={"mode": "co-membership"})
+    assert svg.status_code == 200 and "shared groups (co-membership)" in svg.text
+    assert client.get("/persons/p-aart", params={"mode": "co-membership"}).status_code == 200
+
+
+def test_ego_cap_keeps_the_strongest_co_members(client: TestClient):
+    # Directly in the network code: with a cap of 3, Evelyn keeps her three strongest co-members
+    # (most shared events, then key) and counts the others as left out.
+    from app.network.ego_memberships import ego_network_in_mode
+    from app.network.slice import Slice, resolve_slice
+    from app.store.network_labels import list_person_labels_by_key
+
+    database = client.app.state.database
+    G = reference()
+    evelyn = woman_key("Evelyn Jefferson")
+    expected = sorted(G[evelyn], key=lambda k: (-G.edges[evelyn, k]["weight"], k))[:3]
+    with database.read() as session:
+        resolved = resolve_slice(session, Slice(mode="co-membership"))
+        ego_id = list_person_labels_by_key(session=session, keys=[evelyn])[evelyn].id
+        network = ego_network_in_mode(session, resolved, ego_id, max_alters=3)
+    assert {n.key for n in network.nodes if n.distance == 1} == set(expected)
+    assert network.co_members_left_out == G.degree(evelyn) - 3

@@ -180,19 +180,14 @@ def test_empty_projection_says_so(client: TestClient):
         ("/api/ties/p-aart/p-bette", {"mode": "groups"}, "mode"),
         ("/api/network/summary", {"mode": "co-members"}, "mode"),
         ("/api/network/centrality", {"weighting": "heavy"}, "weighting"),
-        ("/api/persons/p-aart/ego", {"mode": "co-membership"}, "mode"),
-        ("/api/persons/p-aart", {"mode": "both"}, "mode"),
+        ("/api/persons/p-aart/ego", {"mode": "groups"}, "mode"),
+        ("/api/persons/p-aart", {"weighting": "most"}, "weighting"),
     ],
 )
 def test_bad_parameters_are_400_naming_them(client: TestClient, path: str, query: dict, parameter: str):
     response = client.get(path, params=query)
     assert response.status_code == 400, response.text
     assert response.json()["detail"].startswith(f"{parameter}=")
-
-
-def test_pages_that_build_relations_only_refuse_co_membership_with_a_pointer(client: TestClient):
-    detail = client.get("/api/persons/p-aart/ego", params={"mode": "co-membership"}).json()["detail"]
-    assert "/network/two-mode" in detail and "ties page" in detail
 
 
 def test_ties_page_lists_shared_groups_with_both_attestations_and_overlap(client: TestClient):

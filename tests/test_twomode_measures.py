@@ -335,3 +335,13 @@ def test_ego_cap_keeps_the_strongest_co_members(client: TestClient):
         network = ego_network_in_mode(session, resolved, ego_id, max_alters=3)
     assert {n.key for n in network.nodes if n.distance == 1} == set(expected)
     assert network.co_members_left_out == G.degree(evelyn) - 3
+
+
+def test_the_doctests_of_the_mode_modules():
+    import doctest
+
+    from app.network import bipartite_drawing, comembership
+
+    for module in (comembership, bipartite_drawing):
+        failures, tried = doctest.testmod(module)
+        assert tried and not failures, module.__name__

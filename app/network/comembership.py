@@ -104,7 +104,7 @@ def mode_conventions(slice_: Slice) -> str | None:
     Examples
     --------
     >>> print(mode_conventions(Slice(mode="co-membership")))  # doctest: +ELLIPSIS
-    Ties by shared groups (co-membership): two persons are tied when both belong to a group ...
+    Ties by shared groups (co-membership): two persons are tied when both belong to a group...
     """
     if slice_.mode == "relations":
         return None

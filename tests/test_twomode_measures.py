@@ -345,3 +345,24 @@ def test_the_doctests_of_the_mode_modules():
     for module in (comembership, bipartite_drawing):
         failures, tried = doctest.testmod(module)
         assert tried and not failures, module.__name__
+
+
+def test_a_heavy_measure_on_a_projection_goes_through_the_worker(client: TestClient):
+    # The job keeps the slice's mode and weighting in its key; the worker computes the projection.
+    from app.network import jobs
+
+    state = client.app.state
+    kept = getattr(state, "inline_up_to", jobs.INLINE_UP_TO)
+    worker, state.worker = getattr(state, "worker", None), None  # the test runs the job itself
+    state.inline_up_to = 5
+    try:
+        query = {"mode": "co-membership", "weighting": "newman", "measure": "harmonic", "overlap": "any", "nodes": "ties"}
+        waiting = api(client, "/network/centrality", **query)
+        assert waiting["job"] is not None and waiting["rows"] == []
+        assert jobs.run_next_job(state.database).error is None
+        done = api(client, "/network/centrality", **query)
+    finally:
+        state.inline_up_to, state.worker = kept, worker
+    G = reference("newman")
+    expected = nx.harmonic_centrality(G)
+    assert {row["key"]: row["raw"] for row in done["rows"]} == pytest.approx(expected)

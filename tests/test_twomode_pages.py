@@ -220,8 +220,8 @@ def test_ties_page_lists_shared_groups_with_both_attestations_and_overlap(client
     assert "do not overlap" in sections["g-parish"].get_text()
     assert "Parish register" in sections["g-parish"].get_text() and "Guild roll" in sections["g-guild"].get_text()
     assert MARKUP_GROUP in soup.get_text() and "<script>alert(1)" not in str(soup.select_one("#shared-groups"))
-    # Links to the persons drop the mode their pages cannot show.
-    assert all("mode=" not in a["href"] for a in soup.select(".tie-persons a"))
+    # Links to the persons keep the slice, mode included: their pages draw ties by shared groups too.
+    assert all("mode=co-membership" in a["href"] for a in soup.select(".tie-persons a"))
     assert client.get("/api/ties/p-aart/p-bette").json()["shared_groups"] is None
 
 

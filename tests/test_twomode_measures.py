@@ -366,3 +366,19 @@ def test_a_heavy_measure_on_a_projection_goes_through_the_worker(client: TestCli
     G = reference("newman")
     expected = nx.harmonic_centrality(G)
     assert {row["key"]: row["raw"] for row in done["rows"]} == pytest.approx(expected)
+
+
+def test_sparse_clustering_equals_networkx_latapy():
+    # networkx's bipartite.latapy_clustering(mode="dot") (Latapy, Magnien & Del Vecchio 2008) on a
+    # random two-mode graph with isolated pairs, against the sparse products of two_mode_summary.
+    from app.network.twomode import two_mode_summary
+
+    R = bipartite.random_graph(40, 15, 0.12, seed=7)
+    R.remove_nodes_from([n for n in list(R) if R.degree(n) == 0])
+    B = nx.relabel_nodes(R, {n: ("p", n) if R.nodes[n]["bipartite"] == 0 else ("g", n) for n in R})
+    B.add_edge(("p", 100), ("g", 200))  # a person and a group with no one two steps away
+    reference = bipartite.latapy_clustering(B, mode="dot")
+    summary = two_mode_summary(B)
+    for (mode, node), value in reference.items():
+        found = summary.person_clustering[node] if mode == "p" else summary.group_clustering[node]
+        assert found == pytest.approx(value), (mode, node)

@@ -6,6 +6,7 @@ from __future__ import annotations
 
 from dataclasses import dataclass
 
+import numpy as np
 import scipy.sparse as sp
 from fastapi import APIRouter, Request
 from fastapi.responses import HTMLResponse, Response
@@ -208,13 +209,31 @@ def _conventions(slice_: Slice, weighting: str) -> str:
     )
 
 
-def _pairs(projection: Projection) -> list[tuple[int, int, float, int]]:
-    """Return (i, j, weight, shared) for every pair i < j of the projection, heaviest first."""
-    upper = sp.triu(projection.matrix, k=1).tocoo()
-    shared = projection.shared.tocsr()
-    rows = [(int(i), int(j), float(w), int(shared[i, j])) for i, j, w in zip(upper.row, upper.col, upper.data)]
-    rows.sort(key=lambda r: (-r[2], -r[3], r[0], r[1]))
-    return rows
+def _pairs(projection: Projection) -> _Pairs:
+    """Return (i, j, weight, shared) for every pair i < j of the projection, heaviest first (sorted in numpy)."""
+    return _Pairs(projection)
+
+
+class _Pairs:
+    """The pairs of a projection sorted heaviest first, as arrays; slicing gives (i, j, weight, shared) rows."""
+
+    def __init__(self, projection: Projection):
+        upper = sp.triu(projection.matrix, k=1, format="csr")
+        counted = sp.triu(projection.shared, k=1, format="csr")
+        upper.sort_indices()
+        counted.sort_indices()
+        if not (np.array_equal(upper.indptr, counted.indptr) and np.array_equal(upper.indices, counted.indices)):
+            raise AssertionError("the weights and the shared counts are not on the same pairs")
+        coo = upper.tocoo()
+        order = np.lexsort((coo.col, coo.row, -counted.data, -coo.data))
+        self.i, self.j = coo.row[order], coo.col[order]
+        self.w, self.s = coo.data[order], counted.data[order]
+
+    def __len__(self) -> int:
+        return len(self.w)
+
+    def __getitem__(self, part: slice) -> list[tuple[int, int, float, int]]:
+        return list(zip(self.i[part].tolist(), self.j[part].tolist(), self.w[part].tolist(), self.s[part].tolist()))
 
 
 def _evidence(session: Session, slice_: Slice):  # noqa: ANN202

@@ -382,3 +382,18 @@ def test_sparse_clustering_equals_networkx_latapy():
     for (mode, node), value in reference.items():
         found = summary.person_clustering[node] if mode == "p" else summary.group_clustering[node]
         assert found == pytest.approx(value), (mode, node)
+
+
+def test_a_projection_too_large_to_build_is_refused_naming_max_group_size(client: TestClient, monkeypatch):
+    # The measure pages build at most MAX_PROJECTED_TIES ties; above it a 400 names max_group_size
+    # and the largest groups (here the limit is lowered below the 145 ties of the test world).
+    from app.network import comembership
+
+    monkeypatch.setattr(comembership, "MAX_PROJECTED_TIES", 100)
+    response = client.get("/api/network/summary", params={"mode": "co-membership", "overlap": "any", "weighting": "jaccard"})
+    assert response.status_code == 400
+    detail = response.json()["detail"]
+    assert detail.startswith("max_group_size=none") and "145 pairs" in detail and "largest groups have 14, 12, 10 members" in detail
+    # max_group_size=6 leaves out the large events and the parish: the page is computed.
+    assert client.get("/api/network/summary", params={"mode": "co-membership", "max_group_size": "6",
+                                                      "weighting": "jaccard"}).status_code == 200

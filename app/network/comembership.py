@@ -13,20 +13,25 @@ from __future__ import annotations
 from collections import defaultdict
 
 import networkx as nx
+import numpy as np
 from sqlalchemy import func, select
 from sqlalchemy.orm import Session
 
 from app.models import Attestation, Collection, Membership, Person, Source
 from app.network.slice import ResolvedSlice, Slice, attestation_conditions
-from app.network.twomode import membership_evidence, projected_graph
+from app.network.measures.results import MeasureError
+from app.network.twomode import incidence, membership_evidence, project, projected_graph
 
 __all__ = [
+    "MAX_PROJECTED_TIES",
     "PROJECTION_CLIQUE_LIMIT",
     "co_membership_graph",
     "membership_collection_counts",
     "mode_conventions",
 ]
 
+MAX_PROJECTED_TIES = 500_000
+"""Ties by shared groups the measure pages build a graph of, at most (``max_group_size`` narrows it)."""
 PROJECTION_CLIQUE_LIMIT = 1_000
 """Cliques enumerated on a projection: every group of k members is a k-clique by construction."""
 
@@ -52,6 +57,7 @@ def co_membership_graph(session: Session, resolved: ResolvedSlice, *, relations:
     """
     s = resolved.slice
     evidence = membership_evidence(session, resolved)
+    _check_size(evidence, s)
     P = projected_graph(evidence, onto="persons", weighting=s.weighting, overlap=s.overlap, shared_ids=False)
     G: nx.Graph = nx.Graph() if relations is None else relations.copy()
     directed = G.is_directed()
@@ -76,6 +82,27 @@ def co_membership_graph(session: Session, resolved: ResolvedSlice, *, relations:
     G.graph["membership_ids"] = sorted(m.membership_id for m in evidence)
     G.graph["membership_attestations"] = sum(len(m.attestation_ids) for m in evidence)
     return G
+
+
+def _check_size(evidence: list, slice_: Slice, limit: int | None = None) -> None:
+    """Refuse a projection of more than ``MAX_PROJECTED_TIES`` ties, naming the largest groups.
+
+    A graph object per tie costs about 30 µs to build and measure, so three million ties (one
+    20,000-person slice without ``max_group_size``) would hold a page for minutes.
+    """
+    limit = MAX_PROJECTED_TIES if limit is None else limit
+    if not evidence:
+        return
+    ties = project(evidence, onto="persons", overlap=slice_.overlap).shared.nnz // 2
+    if ties <= limit:
+        return
+    sizes = sorted(np.asarray(incidence(evidence).matrix.sum(axis=0)).ravel().tolist(), reverse=True)[:3]
+    raise MeasureError(
+        "max_group_size", slice_.max_group_size if slice_.max_group_size is not None else "none",
+        f"a limit that leaves at most {limit:,} ties by shared groups, or a narrower slice: this slice's projection "
+        f"ties {ties:,} pairs of persons (its largest groups have {', '.join(f'{int(n):,}' for n in sizes)} members "
+        "in the slice); the two-mode page shows it without building a graph of it",
+    )
 
 
 def membership_collection_counts(session: Session, resolved: ResolvedSlice, membership_ids: list[int]) -> dict[int | None, int]:

@@ -397,3 +397,10 @@ def test_a_projection_too_large_to_build_is_refused_naming_max_group_size(client
     # max_group_size=6 leaves out the large events and the parish: the page is computed.
     assert client.get("/api/network/summary", params={"mode": "co-membership", "max_group_size": "6",
                                                       "weighting": "jaccard"}).status_code == 200
+
+
+def test_the_population_line_names_the_node_set_of_the_mode(client: TestClient):
+    page = api(client, "/network/components", mode="co-membership", weighting="newman")
+    assert "every person with a membership the slice keeps" in page["context"]["population"]
+    assert "any kind" not in page["conventions"]
+    assert "any kind" in api(client, "/network/components")["context"]["population"]

@@ -19,6 +19,7 @@ from sqlalchemy.orm import Session
 
 from app.models import Attestation, Collection, Membership, Person, Source
 from app.network.slice import ResolvedSlice, Slice, attestation_conditions
+from app.network.measures.conventions import NODE_SETS
 from app.network.measures.results import MeasureError
 from app.network.twomode import incidence, membership_evidence, project, projected_graph
 
@@ -28,6 +29,7 @@ __all__ = [
     "co_membership_graph",
     "membership_collection_counts",
     "mode_conventions",
+    "mode_population",
 ]
 
 MAX_PROJECTED_TIES = 500_000
@@ -155,3 +157,20 @@ def mode_conventions(slice_: Slice) -> str | None:
             "co-membership weight), so the two kinds of weight are added as they are; on a directed slice the "
             f"co-membership tie runs both ways. The node set is {relation_nodes} and the persons with a membership, "
             "so n is at least the n of the relations alone.")
+
+
+def mode_population(text: str, slice_: Slice) -> str:
+    """Return a sentence or text naming the node set (``population_sentence``) in the words of the slice's mode.
+
+    Under ``mode=co-membership`` the evidence node set is the persons with a kept membership,
+    not everyone with evidence of any kind.
+
+    Examples
+    --------
+    >>> mode_population("n = 4 persons (node set: evidence, every person with at least one attestation of any kind "
+    ...                 "in the slice).", Slice(mode="co-membership"))
+    'n = 4 persons (node set: evidence, every person with a membership the slice keeps).'
+    """
+    if slice_.mode != "co-membership" or slice_.nodes != "evidence":
+        return text
+    return text.replace(NODE_SETS["evidence"], "every person with a membership the slice keeps")

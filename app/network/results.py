@@ -30,7 +30,7 @@ import networkx as nx
 from sqlalchemy.orm import Session
 
 from app.db import Database
-from app.network.comembership import PROJECTION_CLIQUE_LIMIT, co_membership_graph, membership_collection_counts, mode_conventions
+from app.network.comembership import PROJECTION_CLIQUE_LIMIT, co_membership_graph, membership_collection_counts, mode_conventions, mode_population
 from app.network.measures.cliques import CLIQUE_LIMIT
 from app.network.measures import MEASURES, cliques, communities, components, compute, cuts, summarize
 from app.network.measures.results import MeasureError
@@ -270,7 +270,7 @@ def _with_mode(payload: dict[str, Any], slice_: Slice) -> dict[str, Any]:
     """Add to a result's conventions what a co-membership graph stands on (node set, weights)."""
     note = mode_conventions(slice_)
     if note is not None:
-        payload["conventions"] = f"{payload['conventions']} {note}"
+        payload["conventions"] = f"{mode_population(payload['conventions'], slice_)} {note}"
     return payload
 
 

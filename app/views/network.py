@@ -22,7 +22,7 @@ from sqlalchemy.orm import Session
 from app.db import Database
 from app.names import fold
 from app.network.definitions import FAMILIES as PAGE_INFO
-from app.network.comembership import mode_conventions
+from app.network.comembership import mode_conventions, mode_population
 from app.network.definitions import MEASURE_INFO
 from app.network.measures import DIRECTED_MEASURES, MEASURES
 from app.network.measures.cliques import CLIQUE_LIMIT
@@ -344,7 +344,7 @@ def person_measures_view(*, session: Session, database: Database, key: str, slic
     elif any(r.changes_since for r in rows):
         note = "Some figures were computed before the latest changes to the data: each measure's page can recompute them."
     return PersonMeasures(key=person.key, name=person.name, slice=slice, slice_summary=slice.describe(),
-                          population=population_sentence(n, slice.nodes), in_slice=bool(rows), note=note, measures=rows)  # fmt: skip
+                          population=mode_population(population_sentence(n, slice.nodes), slice), in_slice=bool(rows), note=note, measures=rows)  # fmt: skip
 
 
 # --- CSV tables --------------------------------------------------------------------------------
@@ -467,7 +467,8 @@ def _context(session: Session, view: str, slice_: Slice, outcome: Outcome, param
     n = outcome.payload["n"]
     return PageContext(
         view=view, title=PAGE_INFO[view].label, definition=PAGE_INFO[view], slice_summary=slice_.describe(),
-        population=population_sentence(n, slice_.nodes), n=n, empty_note=EMPTY_NOTE if n == 0 else None,
+        population=mode_population(population_sentence(n, slice_.nodes), slice_), n=n,
+        empty_note=EMPTY_NOTE if n == 0 else None,
         mode_note=mode_conventions(slice_),
         freshness=_freshness(outcome), parameters=parameters, tables=tables, controls=slice_controls(session=session, slice=slice_),
     )  # fmt: skip

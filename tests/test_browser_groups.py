@@ -115,3 +115,45 @@ def test_group_member_two_mode_page_and_shared_groups(browser: Browser, base_url
     expect(page.locator('section.shared-group[data-group="g-guild"]')).to_contain_text("overlap in time")
     page.screenshot(path=str(ARTIFACTS / "ties-co-membership.png"), full_page=True)
     assert outside == []
+
+
+def test_switch_a_person_to_co_membership_and_open_a_projected_tie(browser: Browser, base_url: str):
+    # The walk of the two-mode issue: a group, a member, the slice switched to ties by shared
+    # groups, a projected tie clicked in the ego drawing, the shared groups with their documents.
+    ARTIFACTS.mkdir(exist_ok=True)
+    page, outside = open_page(browser, base_url)
+    page.goto(f"{base_url}/groups/g-parish")
+    page.locator('li.membership[data-person="p-aart"] a').first.click()
+    expect(page.locator("h1")).to_contain_text("Aart Velde")
+    page.locator('details[data-group="groups"] > summary').click()
+    page.get_by_label("shared groups only (co-membership)").check()
+    page.get_by_role("button", name="Apply").click()
+    assert parse_qs(urlsplit(page.url).query)["mode"] == ["co-membership"]
+    lines = page.locator("svg.ego-svg a.ego-edge-groups")
+    expect(lines).to_have_count(6)  # Aart, Bette, Cas and Dirk all share the parish
+    expect(page.locator('.ego-legend li[data-kind="co-membership"]')).to_contain_text("shared groups")
+    page.locator('svg.ego-svg a.ego-edge-groups[data-source="p-aart"][data-target="p-bette"] path.ego-hit').dispatch_event("click")
+    panel = page.locator("#tie-panel")
+    expect(panel.locator("section.shared-group")).to_have_count(2)
+    expect(panel.locator('section.shared-group[data-group="g-parish"]')).to_contain_text("Parish register")
+    expect(panel.locator('section.shared-group[data-group="g-guild"]')).to_contain_text("Guild roll")
+    page.screenshot(path=str(ARTIFACTS / "ego-co-membership.png"), full_page=True)
+    assert outside == []
+
+
+def test_two_mode_drawing_mark_opens_the_person(browser: Browser, base_url: str):
+    ARTIFACTS.mkdir(exist_ok=True)
+    page, outside = open_page(browser, base_url)
+    page.goto(f"{base_url}/network/two-mode")
+    svg = page.locator("svg.two-mode-svg")
+    expect(svg).to_be_visible()
+    expect(svg.locator('a.tm-node[data-mode="group"] polygon')).to_have_count(16)
+    page.screenshot(path=str(ARTIFACTS / "two-mode-drawing.png"), full_page=True)
+    bette = svg.locator('a.tm-node[data-key="p-bette"]')
+    expect(bette.locator("title")).to_have_text("Bette Brink: in 2 groups")
+    bette.locator("circle").click()
+    expect(page.locator("h1")).to_contain_text("Bette Brink")
+    page.go_back()
+    page.locator('svg.two-mode-svg a.tm-node[data-key="g-guild"] polygon').click()
+    expect(page.locator("h1")).to_contain_text(MARKUP_GROUP)
+    assert outside == []

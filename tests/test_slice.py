@@ -267,7 +267,7 @@ def test_loops_are_kept_only_when_asked(session):
 
 FORM_PARAMETERS = {"kind", "from", "to", "dates", "undated", "certainty", "evidence", "keep_collection", "omit_collection",
                    "keep_repository", "omit_repository", "min_collections", "unidentified", "nodes", "loops",
-                   "direction", "weight"}  # fmt: skip
+                   "direction", "weight", "mode", "overlap", "weighting", "max_group_size"}  # fmt: skip
 
 
 @pytest.fixture(scope="module")
@@ -314,20 +314,24 @@ def test_the_form_shows_the_current_slice_and_sends_it_back_unchanged(client: Te
              ("undated", "drop"), ("certainty", "probable"), ("evidence", "original"), ("evidence", "copy"),
              ("omit_collection", "col-s1"), ("keep_repository", "rep-north"), ("min_collections", "2"),
              ("unidentified", "drop"), ("nodes", "ties"), ("loops", "keep"), ("direction", "undirected"),
-             ("weight", "attestations"), ("max_group_size", "9"), ("radius", "2")]  # fmt: skip
+             ("weight", "attestations"), ("max_group_size", "9"), ("mode", "both"), ("overlap", "required"),
+             ("weighting", "newman"), ("radius", "2")]  # fmt: skip
     form = form_of(client, urlencode(query))
     kinds = {c["value"]: c for c in form.select('input[name="kind"]')}
     assert kinds["kinship"].has_attr("checked") and not kinds["kinship"].has_attr("disabled")
     for sub in ("parent", "sibling", "spouse"):  # chosen with their parent kind
         assert kinds[sub].has_attr("checked") and kinds[sub].has_attr("disabled")
     assert not kinds["business"].has_attr("checked")
-    for name in ("dates", "undated", "certainty", "unidentified", "nodes", "loops", "direction", "weight"):
+    for name in ("dates", "undated", "certainty", "unidentified", "nodes", "loops", "direction", "weight", "mode",
+                 "overlap", "weighting"):
         checked = [r["value"] for r in form.select(f'input[type=radio][name="{name}"]') if r.has_attr("checked")]
         assert checked == [dict(query)[name]], name
     sent = submitted(form)
     assert Slice.from_query(sent) == Slice.from_query(query)
     assert ("radius", "2") in sent  # the page's own parameter survives applying the form
-    assert {g["data-group"] for g in form.select("details[open]")} == {"kinds", "period", "evidence", "archives", "graph"}
+    assert {g["data-group"] for g in form.select("details[open]")} == {"kinds", "period", "evidence", "archives", "graph",
+                                                                      "groups"}
+    assert form.select_one('input[name="max_group_size"]')["value"] == "9"
     assert set(parse_qsl(urlsplit(form.select_one("a.slice-reset")["href"]).query)) == {("radius", "2")}
 
 

@@ -178,21 +178,16 @@ def test_empty_projection_says_so(client: TestClient):
         ("/api/network/two-mode", {"format": "xlsx"}, "format"),
         ("/api/network/two-mode", {"overlap": "sometimes"}, "overlap"),
         ("/api/ties/p-aart/p-bette", {"mode": "groups"}, "mode"),
-        ("/api/network/summary", {"mode": "co-membership"}, "mode"),
-        ("/api/network/centrality", {"mode": "both"}, "mode"),
-        ("/api/persons/p-aart/ego", {"mode": "co-membership"}, "mode"),
-        ("/api/persons/p-aart", {"mode": "both"}, "mode"),
+        ("/api/network/summary", {"mode": "co-members"}, "mode"),
+        ("/api/network/centrality", {"weighting": "heavy"}, "weighting"),
+        ("/api/persons/p-aart/ego", {"mode": "groups"}, "mode"),
+        ("/api/persons/p-aart", {"weighting": "most"}, "weighting"),
     ],
 )
 def test_bad_parameters_are_400_naming_them(client: TestClient, path: str, query: dict, parameter: str):
     response = client.get(path, params=query)
     assert response.status_code == 400, response.text
     assert response.json()["detail"].startswith(f"{parameter}=")
-
-
-def test_pages_that_build_relations_only_refuse_co_membership_with_a_pointer(client: TestClient):
-    detail = client.get("/api/network/summary", params={"mode": "co-membership"}).json()["detail"]
-    assert "/network/two-mode" in detail and "ties page" in detail
 
 
 def test_ties_page_lists_shared_groups_with_both_attestations_and_overlap(client: TestClient):
@@ -225,8 +220,8 @@ def test_ties_page_lists_shared_groups_with_both_attestations_and_overlap(client
     assert "do not overlap" in sections["g-parish"].get_text()
     assert "Parish register" in sections["g-parish"].get_text() and "Guild roll" in sections["g-guild"].get_text()
     assert MARKUP_GROUP in soup.get_text() and "<script>alert(1)" not in str(soup.select_one("#shared-groups"))
-    # Links to the persons drop the mode their pages cannot show.
-    assert all("mode=" not in a["href"] for a in soup.select(".tie-persons a"))
+    # Links to the persons keep the slice, mode included: their pages draw ties by shared groups too.
+    assert all("mode=co-membership" in a["href"] for a in soup.select(".tie-persons a"))
     assert client.get("/api/ties/p-aart/p-bette").json()["shared_groups"] is None
 
 
@@ -244,3 +239,70 @@ def test_openapi_documents_the_routes_and_every_field(client: TestClient):
         properties = schema["components"]["schemas"][model.__name__]["properties"]
         assert set(properties) == {f.name for f in dataclasses.fields(model)}, model.__name__
         assert [n for n, spec in properties.items() if not spec.get("description")] == [], model.__name__
+
+
+def test_bipartite_drawing_marks_link_and_tell_the_modes_apart(client: TestClient):
+    response = client.get("/network/two-mode")
+    soup = BeautifulSoup(response.text, "lxml")
+    svg = soup.select_one("svg.two-mode-svg")
+    persons = svg.select('a.tm-node[data-mode="person"]')
+    groups = svg.select('a.tm-node[data-mode="group"]')
+    assert len(persons) == 18 + 4 and len(groups) == 14 + 2
+    assert len(svg.select("path.tm-line")) == 89 + 6  # every membership, drawn once
+    # Groups are hexagons of the groups' green, persons pale circles (Dirk, unidentified, dashed).
+    assert all(a.select_one("polygon.tm-group") for a in groups)
+    assert all(a.select_one("circle.tm-person") for a in persons)
+    assert "tm-unidentified" in svg.select_one('a[data-key="p-dirk"] circle')["class"]
+    # Each mark opens its page; hovering shows its name and counts.
+    evelyn = svg.select_one(f'a[data-key="{woman_key("Evelyn Jefferson")}"]')
+    assert evelyn["href"].startswith(f"/persons/{woman_key('Evelyn Jefferson')}")
+    assert evelyn.title.get_text() == f"Evelyn Jefferson: in {DAVIS.degree('Evelyn Jefferson')} groups"
+    parish = svg.select_one('a[data-key="g-parish"]')
+    assert parish["href"].startswith("/groups/g-parish") and "4 members" in parish.title.get_text()
+    assert "<script>" not in str(svg) or "&lt;script&gt;" in str(svg)  # names with markup stay text
+    assert svg.find("script") is None
+    # The layout is deterministic: the same data gives the same picture.
+    again = BeautifulSoup(client.get("/network/two-mode").text, "lxml").select_one("svg.two-mode-svg")
+    assert str(again) == str(svg)
+    assert api(client)["drawing"]["persons_left_out"] == 0
+
+
+def test_bipartite_drawing_caps_and_says_what_it_leaves_out():
+    from types import SimpleNamespace
+
+    from app.network.bipartite_drawing import two_mode_drawing
+    from app.network.twomode import MembershipEvidence
+
+    # 30 persons; person i belongs to groups i % 10 and (i + 1) % 10: 10 groups of 6 members.
+    evidence = [MembershipEvidence(n, p, g, "", None, None, None, None, None, None, (n,), (n,))
+                for n, (p, g) in enumerate((p, (p + k) % 10) for p in range(30) for k in (0, 1))]  # fmt: skip
+    persons = {p: SimpleNamespace(key=f"p-{p:02d}", name=f"P {p}", kind="individual", unidentified=False) for p in range(30)}
+    groups = {g: SimpleNamespace(key=f"g-{g:02d}", name=f"G {g}", kind=None) for g in range(10)}
+    drawing = two_mode_drawing(evidence, persons=persons, groups=groups, max_persons=9, max_groups=4)
+    assert (drawing.groups_drawn, drawing.groups_left_out) == (4, 6)
+    assert (drawing.persons_drawn, drawing.persons_left_out) == (9, 21)
+    assert "6 of 10 groups are not drawn" in drawing.notes[0] and "21 of 30 persons" in drawing.notes[1]
+    # The groups with most members (all have 6: by key) and the persons in most of them are drawn.
+    assert {n.key for n in drawing.nodes if n.mode == "group"} == {"g-00", "g-01", "g-02", "g-03"}
+    drawn = {n.key for n in drawing.nodes if n.mode == "person"}
+    in_both = {f"p-{p:02d}" for p in range(30) if {p % 10, (p + 1) % 10} <= {0, 1, 2, 3}}
+    assert in_both == drawn  # the nine persons in two drawn groups come first
+    assert all(e.person in drawn and e.group in {"g-00", "g-01", "g-02", "g-03"} for e in drawing.edges)
+
+
+def test_long_tables_are_paged(client: TestClient):
+    first = api(client)
+    assert first["paging"]["person_pairs"]["pages"] == 2 and len(first["person_pairs"]) == 100
+    second = api(client, person_pairs_page="2")
+    assert second["paging"]["person_pairs"]["first"] == 101 and len(second["person_pairs"]) == first["person_pairs_total"] - 100
+    keys = lambda page: {frozenset((p["a"]["key"], p["b"]["key"])) for p in page["person_pairs"]}  # noqa: E731
+    assert not keys(first) & keys(second) and len(keys(first) | keys(second)) == first["person_pairs_total"]
+    assert min(p["weight"] for p in first["person_pairs"]) >= max(p["weight"] for p in second["person_pairs"])
+    assert first["paging"]["persons"]["pages"] == 1 and len(first["person_degrees"]) == 22
+    response = client.get("/api/network/two-mode", params={"person_pairs_page": "3"})
+    assert response.status_code == 400 and response.json()["detail"].startswith("person_pairs_page=")
+    soup = BeautifulSoup(client.get("/network/two-mode", params={"person_pairs_page": "2", "weighting": "newman"}).text, "lxml")
+    nav = soup.select_one('nav[data-table="person_pairs"]')
+    previous = nav.select_one('a[rel="prev"]')["href"]
+    assert "weighting=newman" in previous and "person_pairs_page" not in previous
+    assert len(next(csv.reader(io.StringIO(client.get("/network/two-mode", params={"format": "csv", "table": "persons"}).text)))) == 4

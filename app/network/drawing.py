@@ -18,7 +18,7 @@ from app.network.ego import EgoEdge, EgoNetwork
 from app.network.layout import HEIGHT, WIDTH, Placement, ego_layout
 from app.store.network_labels import KindLabel
 
-__all__ = ["DASHES", "PALETTE", "Drawing", "DrawnEdge", "DrawnNode", "KindStyle", "ego_drawing", "kind_styles", "short_label"]
+__all__ = ["CO_MEMBERSHIP_STYLE", "DASHES", "PALETTE", "Drawing", "DrawnEdge", "DrawnNode", "KindStyle", "ego_drawing", "kind_styles", "short_label"]
 
 PALETTE = ("#1f5fa8", "#c4511f", "#0f8a6a", "#a3418f", "#9a6c00", "#3f93c9", "#6b4f2a", "#5f5f5f")
 DASHES = ("", "9 4", "2 3", "12 3 2 3", "5 5", "1 4 6 4")
@@ -49,6 +49,11 @@ class KindStyle:
     """True when its lines end in an arrow in this drawing."""
     marker: str
     """Id of its arrowhead marker ("" when undirected)."""
+
+
+CO_MEMBERSHIP_STYLE = KindStyle(key="co-membership", label="shared groups (co-membership)", colour="#3d8a78",
+                                dash="7 2 1.5 2 1.5 2", directed=False, marker="")
+"""Ties by shared groups: the green of the groups in the group drawings, dash-dot-dot, never an arrow."""
 
 
 @dataclass(frozen=True)
@@ -115,6 +120,8 @@ class DrawnEdge:
     """Id of the arrowhead marker at its end ("" for none)."""
     title: str
     """Hover text: the pair, the kind and the counts."""
+    co_membership: bool = False
+    """True for a tie by shared groups, which opens the ties page under mode=co-membership."""
 
 
 @dataclass(frozen=True)
@@ -180,9 +187,9 @@ def ego_drawing(network: EgoNetwork, kinds: list[KindLabel], *, weight: str = "d
         pairs[tuple(sorted((edge.source, edge.target)))].append(edge)
     order = {key: i for i, key in enumerate(styles)}
     for (a, b), group in sorted(pairs.items()):
-        group.sort(key=lambda e: (order[e.kind], e.source))
+        group.sort(key=lambda e: (e.co_membership, order.get(e.kind, 0), e.source))
         for i, edge in enumerate(group):
-            style = styles[edge.kind]
+            style = CO_MEMBERSHIP_STYLE if edge.co_membership else styles[edge.kind]
             if a == b:
                 path = _loop_path(places[a], sizes[a], i)
             else:
@@ -192,13 +199,15 @@ def ego_drawing(network: EgoNetwork, kinds: list[KindLabel], *, weight: str = "d
             edges.append(DrawnEdge(
                 source=edge.source, target=edge.target, kind=edge.kind, path=path, colour=style.colour, dash=style.dash,
                 width=_width(edge.weight, weight), marker=style.marker if edge.directed else "",
-                title=_edge_title(edge, names),
+                title=_edge_title(edge, names), co_membership=edge.co_membership,
             ))  # fmt: skip
-    present = {edge.kind for edge in network.edges}
-    return Drawing(
-        width=WIDTH, height=HEIGHT, nodes=nodes, edges=edges, kinds=[s for k, s in styles.items() if k in present],
-        width_means=WIDTH_MEANS[weight],
-    )
+    present = {edge.kind for edge in network.edges if not edge.co_membership}
+    legend = [s for k, s in styles.items() if k in present]
+    width_means = WIDTH_MEANS[weight]
+    if any(edge.co_membership for edge in network.edges):
+        legend.append(CO_MEMBERSHIP_STYLE)
+        width_means += "; for shared groups, their weight (the slice's weighting)"
+    return Drawing(width=WIDTH, height=HEIGHT, nodes=nodes, edges=edges, kinds=legend, width_means=width_means)
 
 
 # --- helpers -------------------------------------------------------------------------------
@@ -257,6 +266,11 @@ def _node(node, place: Placement, ego: bool, attestations: int, network: EgoNetw
 
 
 def _edge_title(edge: EgoEdge, names: dict[str, str]) -> str:
+    if edge.co_membership:
+        groups = edge.shared_groups or 0
+        return (f"{names[edge.source]} – {names[edge.target]}: {groups} shared group{'s' if groups != 1 else ''} "
+                f"(weight {edge.weight:.3g}), {edge.documents} document{'s' if edge.documents != 1 else ''} "
+                "of their memberships")  # fmt: skip
     arrow = "→" if edge.directed else "–"
     return (f"{names[edge.source]} {arrow} {names[edge.target]}: {edge.kind_label}, "
             f"{edge.documents} document{'s' if edge.documents != 1 else ''}, "

@@ -80,6 +80,10 @@ class EgoEdge:
     """Weight under the slice's weight mode (documents, attestations, or 1 for none)."""
     relation_ids: list[int]
     """The relations behind the edge (two when both directions are merged)."""
+    co_membership: bool = False
+    """True for a tie by shared groups (mode=co-membership or both): no relation, no direction."""
+    shared_groups: int | None = None
+    """For a tie by shared groups, the groups counted (None for a relation)."""
 
 
 @dataclass(frozen=True)
@@ -100,6 +104,8 @@ class EgoNetwork:
     """The cap on drawn alters."""
     left_out: dict[int, int] = field(default_factory=dict)
     """Alters found but not drawn because of the cap, by distance (1, 2)."""
+    co_members_left_out: int = 0
+    """Under mode=co-membership or both: persons sharing a group who were not drawn (the cap)."""
 
 
 def ego_network(

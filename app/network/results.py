@@ -30,6 +30,8 @@ import networkx as nx
 from sqlalchemy.orm import Session
 
 from app.db import Database
+from app.network.comembership import PROJECTION_CLIQUE_LIMIT, co_membership_graph, membership_collection_counts, mode_conventions, mode_population
+from app.network.measures.cliques import CLIQUE_LIMIT
 from app.network.measures import MEASURES, cliques, communities, components, compute, cuts, summarize
 from app.network.measures.results import MeasureError
 from app.network.measures.arcs import ArcGraph
@@ -252,6 +254,8 @@ class SliceGraph:
     @classmethod
     def build(cls, session: Session, slice_: Slice) -> SliceGraph:
         """Read the slice's relations, counted in SQL, and build its graph (SliceError for an unknown key)."""
+        if slice_.mode != "relations":
+            return cls.from_co_membership(session, slice_)
         started = time.perf_counter()
         resolved = resolve_slice(session, slice_)
         same_as = same_as_mapping(session, slice_.same_as)  # persons linked as possibly one, under same_as=merge
@@ -270,21 +274,43 @@ class SliceGraph:
                    {row.relation_id: row.attestations for row in totals}, time.perf_counter() - started, array_graph,
                    lambda: graph_from_totals(None, resolved, totals, arcs=(arcs, tied), nodes=nodes))
 
+    @classmethod
+    def from_co_membership(cls, session: Session, slice_: Slice) -> SliceGraph:
+        """Build the graph of ``mode=co-membership`` (persons tied by shared groups) or ``mode=both``."""
+        started = time.perf_counter()
+        relations = cls.build(session, slice_.with_(mode="relations")) if slice_.mode == "both" else None
+        resolved = resolve_slice(session, slice_)
+        G = co_membership_graph(session, resolved, relations=relations.G if relations else None)
+        labels = list_person_labels(session=session, ids=list(G))
+        return cls(slice_, {node: labels[node].key for node in G}, resolved,
+                   relations.attestations if relations else {}, time.perf_counter() - started,
+                   ArcGraph.from_networkx(G), lambda: G)
+
 
 def compute_result(session: Session, graph: SliceGraph, *, measure: str, options: dict[str, Any]) -> dict[str, Any]:
     """Return the result of one measure on the slice's graph, as JSON data with persons by key."""
     slice_, key_of = graph.slice, graph.key_of
     if measure == "summary":
-        return _summary(session, graph)
+        return _with_mode(_summary(session, graph), slice_)
     if measure == "components":
-        return _components(graph.arcs, slice_, key_of)
+        return _with_mode(_components(graph.arcs, slice_, key_of), slice_)
     if measure == "cut-points":
-        return _cuts(graph.G, slice_, key_of)
+        return _with_mode(_cuts(graph.G, slice_, key_of), slice_)
     if measure == "cliques":
-        return _cliques(graph.G, slice_, key_of, options)
-    if measure == "communities":
-        return _communities(graph.G, slice_, key_of, options)
-    return _centrality(graph.arcs, measure, slice_, key_of, options)
+        payload = _cliques(graph.G, slice_, key_of, options)
+    elif measure == "communities":
+        payload = _communities(graph.G, slice_, key_of, options)
+    else:
+        payload = _centrality(graph.arcs, measure, slice_, key_of, options)
+    return _with_mode(payload, slice_)
+
+
+def _with_mode(payload: dict[str, Any], slice_: Slice) -> dict[str, Any]:
+    """Add to a result's conventions what a co-membership graph stands on (node set, weights)."""
+    note = mode_conventions(slice_)
+    if note is not None:
+        payload["conventions"] = f"{mode_population(payload['conventions'], slice_)} {note}"
+    return payload
 
 
 # --- one function per page -------------------------------------------------------------------
@@ -311,12 +337,14 @@ def _summary(session: Session, graph: SliceGraph) -> dict[str, Any]:
     G, slice_ = graph.G, graph.slice
     in_graph = {r for _, _, ids in G.edges(data="relation_ids") for r in ids or ()}
     per_collection = Counter(collection_counts(session, graph.resolved, in_graph))
+    memberships = G.graph.get("membership_ids", [])  # mode=co-membership or both: their evidence counts too
+    per_collection.update(membership_collection_counts(session, graph.resolved, memberships))
     printed = per_collection.pop(None, 0)
     names = list_collection_names(session=session, ids=list(per_collection))
     counts = {names[c]: count for c, count in per_collection.items()}
     summary = summarize(G, node_set=slice_.nodes, collection_counts=counts)
     payload = asdict(summary)
-    payload["attestations"] = sum(graph.attestations[r] for r in in_graph)
+    payload["attestations"] = sum(graph.attestations[r] for r in in_graph) + G.graph.get("membership_attestations", 0)
     for field in ("degree_distribution", "in_degree_distribution", "out_degree_distribution"):
         if payload[field] is not None:
             payload[field] = [[degree, persons] for degree, persons in payload[field].items()]
@@ -351,10 +379,12 @@ def _cuts(G: nx.Graph, slice_: Slice, key_of: dict) -> dict[str, Any]:
 
 
 def _cliques(G: nx.Graph, slice_: Slice, key_of: dict, options: dict[str, Any]) -> dict[str, Any]:
-    result = cliques(G, min_size=options.get("min_size", 3), node_set=slice_.nodes)
+    projection = slice_.mode != "relations"
+    limit = PROJECTION_CLIQUE_LIMIT if projection else CLIQUE_LIMIT
+    result = cliques(G, min_size=options.get("min_size", 3), limit=limit, node_set=slice_.nodes)
     per_person = sorted(((key_of[v], count) for v, count in result.per_node.items() if count), key=lambda item: (-item[1], item[0]))
     return {"n": len(G), "directed": G.is_directed(), "conventions": result.conventions, "min_size": result.min_size,
-            "limit": result.limit, "complete": result.complete,
+            "limit": result.limit, "complete": result.complete, "projection_note": _PROJECTION_CLIQUES if projection else None,
             "cliques": [{"number": c.number, "members": _keys(c.members, key_of)} for c in result.cliques],
             "per_person": [{"key": key, "cliques": count} for key, count in per_person]}  # fmt: skip
 
@@ -376,6 +406,14 @@ def _communities(G: nx.Graph, slice_: Slice, key_of: dict, options: dict[str, An
         "links": [{"a": link.a, "b": link.b, "ties": link.ties, "weight": link.weight} for link in result.links],
         "isolates": _keys(result.isolates, key_of), "stability": stability,
     })  # fmt: skip
+
+
+_PROJECTION_CLIQUES = (
+    f"Ties by shared groups make every group a clique by construction: a group of k members is a clique of k "
+    f"persons, so on a projection the cliques mostly restate the groups rather than find anything. The search "
+    f"is capped at {PROJECTION_CLIQUE_LIMIT:,} cliques here (instead of {CLIQUE_LIMIT:,}); max_group_size=N "
+    "leaves out the largest groups."
+)
 
 
 # --- helpers -------------------------------------------------------------------------------

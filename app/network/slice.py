@@ -61,6 +61,7 @@ CHOICES: dict[str, tuple[str, ...]] = {
     "mode": ("relations", "co-membership", "both"),
     "overlap": ("any", "required"),
     "same_as": ("apart", "merge"),
+    "weighting": ("shared", "newman", "jaccard"),
 }
 REPEATABLE = ("kind", "evidence", "keep_collection", "omit_collection", "keep_repository", "omit_repository")
 NUMBERS = ("min_collections", "max_group_size")
@@ -101,6 +102,7 @@ class Slice:
     overlap: str = "any"
     max_group_size: int | None = None
     same_as: str = "apart"  # merge: persons linked as possibly the same count as one (app/network/same_as.py)
+    weighting: str = "shared"  # of co-membership ties: shared groups, Newman (2001) or Jaccard
 
     @classmethod
     def from_query(cls, query: Mapping[str, Sequence[str]] | Iterable[tuple[str, str]]) -> Slice:
@@ -194,6 +196,12 @@ class Slice:
             parts.append("persons linked as possibly the same counted as one")
         if self.mode != "relations":
             parts.append({"co-membership": "ties by shared groups", "both": "relations and ties by shared groups"}[self.mode])
+            if self.overlap == "required":
+                parts.append("shared groups only where the terms overlap")
+            if self.max_group_size is not None:
+                parts.append(f"groups of at most {self.max_group_size} members")
+            if self.weighting != "shared":
+                parts.append({"newman": "Newman's weighting of shared groups", "jaccard": "Jaccard overlap of groups"}[self.weighting])
         return "; ".join(parts)
 
     def with_(self, **changes: Any) -> Slice:

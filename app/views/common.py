@@ -39,7 +39,6 @@ __all__ = [
     "Urls",
     "is_api_request",
     "page_number",
-    "relations_only",
     "render",
     "render_error",
     "templates",
@@ -76,13 +75,6 @@ def slice_from_request(request: Request) -> Slice:
 
 SessionDep = Annotated[Session, Depends(read_session)]
 SliceDep = Annotated[Slice, Depends(slice_from_request)]
-
-
-def relations_only(slice_: SliceDep) -> None:
-    """Refuse ``mode=co-membership`` and ``mode=both`` on a page whose graph is built from relations only."""
-    if slice_.mode != "relations":
-        raise BadParameter("mode", slice_.mode, "relations on this page (mode=co-membership and mode=both are "
-                           "available on /network/two-mode and the ties page /ties/{a}/{b})")
 SettingsDep = Annotated[Settings, Depends(current_settings)]
 
 

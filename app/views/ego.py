@@ -13,21 +13,22 @@ import threading
 from collections import OrderedDict
 from dataclasses import dataclass
 
-from fastapi import APIRouter, Depends, HTTPException, Query, Request
+from fastapi import APIRouter, HTTPException, Query, Request
 from fastapi.responses import HTMLResponse, Response
 from sqlalchemy.orm import Session
 
 from app.network.drawing import Drawing, ego_drawing
-from app.network.ego import EgoEdge, EgoNetwork, EgoNode, ego_network
+from app.network.ego import EgoEdge, EgoNetwork, EgoNode
+from app.network.ego_memberships import ego_network_in_mode
 from app.network.slice import Slice, resolve_slice
 from app.store.network_labels import get_person_label, list_relation_kinds
 from app.store.summary import get_data_version
-from app.views.common import BadParameter, SessionDep, SliceDep, relations_only, render, templates, urls_for
+from app.views.common import BadParameter, SessionDep, SliceDep, render, templates, urls_for
 from app.views.slicing import SliceControls, slice_controls
 
 __all__ = ["EgoPanel", "ego_panel", "router"]
 
-router = APIRouter(tags=["network"], dependencies=[Depends(relations_only)])
+router = APIRouter(tags=["network"])
 RADII = ("1", "2")
 
 
@@ -95,7 +96,7 @@ def ego_panel(*, session: Session, person_key: str, slice: Slice, radius: int) -
 
 def _build_panel(session: Session, person, slice: Slice, radius: int) -> EgoPanel:  # noqa: A002, ANN001
     resolved = resolve_slice(session, slice)
-    network = ego_network(session, resolved, person.id, radius=radius)
+    network = ego_network_in_mode(session, resolved, person.id, radius=radius)
     kinds = list_relation_kinds(session=session)
     drawing = ego_drawing(network, kinds, weight=slice.weight, direction=slice.direction)
     return EgoPanel(
@@ -121,6 +122,15 @@ def _notes(name: str, unidentified: bool, slice: Slice, network: EgoNetwork) -> 
     if second:
         notes.append(f"{second} more person{'s' if second != 1 else ''} two steps away "
                      f"{'are' if second != 1 else 'is'} not drawn (the cap of {network.max_alters} alters).")  # fmt: skip
+    if network.co_members_left_out:
+        n = network.co_members_left_out
+        notes.append(f"{n} more person{'s share' if n != 1 else ' shares'} a group with {name if network.radius == 1 else 'the persons drawn'} "
+                     f"but {'are' if n != 1 else 'is'} not drawn: at most {network.max_alters} alters are drawn, "
+                     "those with the strongest ties first.")  # fmt: skip
+    if slice.mode != "relations":
+        notes.append("Ties by shared groups are drawn in their own line (see the legend); each opens the groups "
+                     "the two share, with the documents of both memberships. They have no direction"
+                     + (", and relation ties between the same two persons are drawn beside them." if slice.mode == "both" else "."))
     if slice.loops == "drop" and any(e.source == e.target for e in network.edges):
         notes.append("Ties of a person with themself are drawn as small loops; measures leave them out "
                      "unless the slice counts loops.")  # fmt: skip

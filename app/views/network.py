@@ -22,6 +22,7 @@ from sqlalchemy.orm import Session
 from app.db import Database
 from app.names import fold
 from app.network.definitions import FAMILIES as PAGE_INFO
+from app.network.comembership import mode_conventions, mode_population
 from app.network.definitions import MEASURE_INFO
 from app.network.measures import DIRECTED_MEASURES, MEASURES
 from app.network.measures.cliques import CLIQUE_LIMIT
@@ -35,7 +36,7 @@ from app.store.jobs import JobInfo
 from app.store.network_labels import get_person_label, list_person_labels_by_key
 from app.store.persons import PersonRef
 from app.views.charts import degree_chart
-from app.views.common import BadParameter, SessionDep, SliceDep, Urls, relations_only, render, templates, urls_for
+from app.views.common import BadParameter, SessionDep, SliceDep, Urls, render, templates, urls_for
 from app.views.network_models import (
     BackgroundJob,
     BridgeRow,
@@ -84,7 +85,7 @@ __all__ = [
     "tables_of",
 ]
 
-router = APIRouter(tags=["network"], dependencies=[Depends(relations_only)])
+router = APIRouter(tags=["network"])
 
 VIEWS = ("summary", "centrality", "components", "cut-points", "cliques", "communities")
 SORTS = {"rank": "asc", "name": "asc", "value": "desc", "raw": "desc"}
@@ -280,7 +281,7 @@ def cliques_view(
     people = _people(session, [k for c in p["cliques"] for k in c["members"]])
     return CliquesPage(
         slice=slice, conventions=p["conventions"], computed_at_version=outcome.computed_at_version,
-        min_size=p["min_size"], limit=p["limit"], complete=p["complete"],
+        min_size=p["min_size"], limit=p["limit"], complete=p["complete"], projection_note=p.get("projection_note"),
         cliques=[CliqueRow(c["number"], len(c["members"]), [people[k] for k in c["members"]]) for c in p["cliques"]],
         per_person=[PersonCount(people[row["key"]], row["cliques"]) for row in p["per_person"]],
         context=_context(session, "cliques", slice, outcome, _non_default(min_size=(str(size), "3")), ["cliques", "per_person"]),
@@ -322,7 +323,7 @@ def person_measures_view(*, session: Session, database: Database, key: str, slic
     person = get_person_label(session=session, key=key)
     if person is None:
         raise HTTPException(status_code=404, detail=f"There is no person with the key {key}.")
-    names = [m for m in MEASURES if slice.direction == "recorded" or m not in DIRECTED_MEASURES]
+    names = [m for m in MEASURES if _directed(slice) or m not in DIRECTED_MEASURES]
     outcomes = _outcomes(database, [(m, {}) for m in names], slice)
     n = outcomes[0].payload["n"]
     rows: list[PersonMeasureRow] = []
@@ -343,7 +344,7 @@ def person_measures_view(*, session: Session, database: Database, key: str, slic
     elif any(r.changes_since for r in rows):
         note = "Some figures were computed before the latest changes to the data: each measure's page can recompute them."
     return PersonMeasures(key=person.key, name=person.name, slice=slice, slice_summary=slice.describe(),
-                          population=population_sentence(n, slice.nodes), in_slice=bool(rows), note=note, measures=rows)  # fmt: skip
+                          population=mode_population(population_sentence(n, slice.nodes), slice), in_slice=bool(rows), note=note, measures=rows)  # fmt: skip
 
 
 # --- CSV tables --------------------------------------------------------------------------------
@@ -466,7 +467,9 @@ def _context(session: Session, view: str, slice_: Slice, outcome: Outcome, param
     n = outcome.payload["n"]
     return PageContext(
         view=view, title=PAGE_INFO[view].label, definition=PAGE_INFO[view], slice_summary=slice_.describe(),
-        population=population_sentence(n, slice_.nodes), n=n, empty_note=EMPTY_NOTE if n == 0 else None,
+        population=mode_population(population_sentence(n, slice_.nodes), slice_), n=n,
+        empty_note=EMPTY_NOTE if n == 0 else None,
+        mode_note=mode_conventions(slice_),
         freshness=_freshness(outcome), parameters=parameters, tables=tables, controls=slice_controls(session=session, slice=slice_),
     )  # fmt: skip
 
@@ -497,6 +500,10 @@ def _measure(measure: str | None, slice_: Slice) -> str:
     name = (measure or "degree").strip().lower()
     if name not in MEASURES:
         raise BadParameter("measure", name, list(MEASURES))
+    if name in DIRECTED_MEASURES and slice_.mode == "co-membership":
+        undirected = [m for m in MEASURES if m not in DIRECTED_MEASURES]
+        raise BadParameter("measure", name, f"with mode=co-membership one of {', '.join(undirected)}: ties by shared "
+                           "groups have no direction (mode=both keeps the direction of the relations)")
     if name in DIRECTED_MEASURES and slice_.direction != "recorded":
         undirected = [m for m in MEASURES if m not in DIRECTED_MEASURES]
         raise BadParameter("measure", name, f"with direction={slice_.direction} one of {', '.join(undirected)}: "
@@ -508,10 +515,18 @@ def _measure(measure: str | None, slice_: Slice) -> str:
 def _choices(slice_: Slice) -> list[MeasureChoice]:
     choices = []
     for name, info in MEASURE_INFO.items():
-        available = slice_.direction == "recorded" or name not in DIRECTED_MEASURES
-        note = None if available else f"needs the direction of ties (direction=recorded); this slice is {slice_.direction}"
+        available = _directed(slice_) or name not in DIRECTED_MEASURES
+        note = None
+        if not available:
+            note = ("ties by shared groups have no direction" if slice_.mode == "co-membership"
+                    else f"needs the direction of ties (direction=recorded); this slice is {slice_.direction}")
         choices.append(MeasureChoice(name, info.label, available, note))
     return choices
+
+
+def _directed(slice_: Slice) -> bool:
+    """True when the slice's graph keeps the direction of ties (co-membership ties have none)."""
+    return slice_.direction == "recorded" and slice_.mode != "co-membership"
 
 
 def _sort(sort: str | None, order: str | None) -> tuple[str, str]:

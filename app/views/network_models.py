@@ -90,6 +90,8 @@ class PageContext:
     """Number of persons in the slice's graph (the n of every normalization)."""
     empty_note: str | None
     """A sentence when the slice holds no person, else None."""
+    mode_note: str | None
+    """Under mode=co-membership or both: what the ties are, how weights combine, which node set (else None)."""
     freshness: Freshness
     """When the result was computed and whether the data changed since."""
     parameters: list[tuple[str, str]]
@@ -481,6 +483,8 @@ class CliquesPage:
     """The cap on the number of cliques enumerated."""
     complete: bool
     """False when the cap was reached and more cliques exist."""
+    projection_note: str | None
+    """On a co-membership graph: why the search is capped lower (a group is a clique by construction)."""
     cliques: list[CliqueRow]
     """The cliques, largest first."""
     per_person: list[PersonCount]

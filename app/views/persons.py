@@ -5,7 +5,7 @@ from __future__ import annotations
 from dataclasses import dataclass, field
 from typing import Any
 
-from fastapi import APIRouter, Depends, HTTPException, Request
+from fastapi import APIRouter, HTTPException, Request
 from fastapi.responses import HTMLResponse, RedirectResponse, Response
 from sqlalchemy.orm import Session
 
@@ -21,7 +21,7 @@ from app.store.persons import (
     search_persons,
 )
 from app.store.merging import LinkedPerson, list_person_links
-from app.views.common import BadParameter, SessionDep, SliceDep, page_number, relations_only, render
+from app.views.common import BadParameter, SessionDep, SliceDep, page_number, render
 from app.views.ego import ego_panel
 
 __all__ = ["PersonPage", "PersonsPage", "person_or_redirect", "person_view", "persons_view", "router"]
@@ -162,7 +162,7 @@ def persons_api(request: Request, session: SessionDep, q: str = "", sort: str | 
     return render(request, view, template="persons.html", partial="_person_rows.html")
 
 
-@router.get("/persons/{key}", response_class=HTMLResponse, dependencies=[Depends(relations_only)], summary="One person (page)",
+@router.get("/persons/{key}", response_class=HTMLResponse, summary="One person (page)",
             description=_PERSON + " The same data in JSON: `/api/persons/{key}`.")  # fmt: skip
 def person_page(request: Request, key: str, session: SessionDep, slice_: SliceDep, relations: str | None = None) -> Response:
     current = person_or_redirect(request, session, key)
@@ -171,7 +171,7 @@ def person_page(request: Request, key: str, session: SessionDep, slice_: SliceDe
     return render(request, person_view(session=session, key=current.key, slice_=slice_, relations=relations), template="person.html")
 
 
-@router.get("/api/persons/{key}", response_model=PersonPage, dependencies=[Depends(relations_only)], summary="One person (JSON)",
+@router.get("/api/persons/{key}", response_model=PersonPage, summary="One person (JSON)",
             description=_PERSON + " The page with the same data: `/persons/{key}`.")  # fmt: skip
 def person_api(request: Request, key: str, session: SessionDep, slice_: SliceDep, relations: str | None = None) -> Response:
     current = person_or_redirect(request, session, key)

@@ -28,6 +28,11 @@ OPTION_LABELS: dict[str, dict[str, str]] = {
     "direction": {"recorded": "as recorded", "undirected": "ignored (both ways merged)",
                   "reciprocal": "only ties attested both ways"},
     "weight": {"documents": "distinct documents", "attestations": "attestations", "none": "none (every tie counts 1)"},
+    "mode": {"relations": "relations only", "co-membership": "shared groups only (co-membership)",
+             "both": "relations and shared groups"},
+    "overlap": {"any": "whenever the memberships were held", "required": "only where the terms overlap in time"},
+    "weighting": {"shared": "number of shared groups", "newman": "Newman (a large group ties each pair weakly)",
+                  "jaccard": "overlap (Jaccard)"},
 }  # fmt: skip
 GROUPS = {
     "kinds": ("kind",),
@@ -35,6 +40,7 @@ GROUPS = {
     "evidence": ("certainty", "evidence", "unidentified"),
     "archives": ("keep_collection", "omit_collection", "keep_repository", "omit_repository", "min_collections"),
     "graph": ("nodes", "loops", "direction", "weight"),
+    "groups": ("mode", "overlap", "weighting", "max_group_size"),
 }
 SHOWN = {name for names in GROUPS.values() for name in names}
 
@@ -109,10 +115,13 @@ class SliceControls:
     """End of the period as given, or ""."""
     min_collections: int
     """Ties must be attested in at least this many collections."""
+    max_group_size: int | None
+    """Groups with more members than this are left out of ties by shared groups (None: none is)."""
     evidence: list[Choice]
     """Kinds of witness, ticked when kept."""
     options: dict[str, list[Choice]]
-    """The one-choice parameters (dates, undated, certainty, unidentified, nodes, loops, direction, weight)."""
+    """The one-choice parameters (dates, undated, certainty, unidentified, nodes, loops, direction, weight,
+    mode, overlap, weighting)."""
     archives: list[ArchiveChoice]
     """Repositories, each followed by its collections."""
     open_groups: list[str]
@@ -157,6 +166,7 @@ def slice_controls(*, session: Session, slice: Slice) -> SliceControls:  # noqa:
         period_from=slice.period_from or "",
         period_to=slice.period_to or "",
         min_collections=slice.min_collections,
+        max_group_size=slice.max_group_size,
         evidence=[Choice(e, e, e in slice.evidence) for e in EVIDENCE_KINDS],
         options=options,
         archives=archives,

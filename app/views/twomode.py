@@ -6,11 +6,13 @@ from __future__ import annotations
 
 from dataclasses import dataclass
 
+import numpy as np
 import scipy.sparse as sp
 from fastapi import APIRouter, Request
 from fastapi.responses import HTMLResponse, Response
 from sqlalchemy.orm import Session
 
+from app.network.bipartite_drawing import TwoModeDrawing, two_mode_drawing
 from app.network.slice import Slice, resolve_slice
 from app.network.twomode import (
     WEIGHTINGS,
@@ -25,18 +27,19 @@ from app.network.twomode import (
 )
 from app.store.groups import GroupRef, group_refs
 from app.store.persons import PersonRef, person_refs
-from app.views.common import BadParameter, SessionDep, SliceDep, render
+from app.views.common import BadParameter, SessionDep, SliceDep, page_number, render
 from app.views.tables import Table, csv_response
 
-__all__ = ["TABLES", "TwoModePage", "two_mode_csv", "two_mode_view", "router"]
+__all__ = ["PAGED", "TABLES", "TablePage", "TwoModePage", "two_mode_csv", "two_mode_view", "router"]
 
 router = APIRouter(tags=["network"])
 
 TABLES = ("incidence", "persons", "groups", "group_projection", "person_projection")
-TOP_PERSON_PAIRS = 100
-"""Person pairs shown on the page (the CSV download holds the whole matrix)."""
-MAX_GROUP_PAIRS = 500
-"""Group pairs shown on the page."""
+ROWS_PER_PAGE = 100
+"""Rows of each long table per page (the CSV downloads hold them all)."""
+PAGED = {"person_pairs": "person_pairs_page", "group_pairs": "group_pairs_page", "persons": "persons_page",
+         "groups": "groups_page"}  # fmt: skip
+"""The paged tables of the page, with the query parameter giving each one's page."""
 WEIGHTING_WORDS = {
     "shared": "the number of groups two persons share (members two groups share)",
     "newman": "Newman's collaboration weighting (Newman 2001): each shared group of n members adds 1/(n − 1), "
@@ -110,6 +113,26 @@ class PersonPair:
 
 
 @dataclass(frozen=True)
+class TablePage:
+    """Which page of a long table is shown."""
+
+    __pydantic_config__ = {"use_attribute_docstrings": True}
+
+    parameter: str
+    """The query parameter of its page number."""
+    page: int
+    """The page shown (from 1)."""
+    pages: int
+    """Pages in all (at least 1)."""
+    total: int
+    """Rows in all."""
+    first: int
+    """Number of the first row shown (from 1; 0 when there is none)."""
+    last: int
+    """Number of the last row shown."""
+
+
+@dataclass(frozen=True)
 class TwoModePage:
     """The two-mode network of a slice and its two projections."""
 
@@ -142,17 +165,23 @@ class TwoModePage:
     mean_group_clustering: float | None
     """Mean bipartite clustering of the groups."""
     person_degrees: list[PersonDegree]
-    """Persons by number of groups, most first, then by name."""
+    """Persons by number of groups, most first, then by name (one page of 100)."""
     group_degrees: list[GroupDegree]
-    """Groups by number of members, most first, then by name."""
+    """Groups by number of members, most first, then by name (one page of 100)."""
     group_pairs: list[GroupPair]
-    """Pairs of groups with shared members, heaviest first (at most 500)."""
+    """Pairs of groups with shared members, heaviest first (one page of 100)."""
     group_pairs_total: int
     """Pairs of groups with shared members in all."""
     person_pairs: list[PersonPair]
-    """The heaviest pairs of the co-membership projection (at most 100)."""
+    """Pairs of the co-membership projection, heaviest first (one page of 100)."""
     person_pairs_total: int
     """Pairs of persons sharing a group in all."""
+    paging: dict[str, TablePage]
+    """The page shown of each long table: person_pairs, group_pairs, persons, groups."""
+    page_parameters: list[tuple[str, str]]
+    """The page numbers other than 1, as query parameters, kept by the links of the page."""
+    drawing: TwoModeDrawing
+    """Persons and groups drawn in two columns, memberships between (capped on large data)."""
 
 
 def _weighting(value: str | None) -> str:
@@ -180,36 +209,77 @@ def _conventions(slice_: Slice, weighting: str) -> str:
     )
 
 
-def _pairs(projection: Projection) -> list[tuple[int, int, float, int]]:
-    """Return (i, j, weight, shared) for every pair i < j of the projection, heaviest first."""
-    upper = sp.triu(projection.matrix, k=1).tocoo()
-    shared = projection.shared.tocsr()
-    rows = [(int(i), int(j), float(w), int(shared[i, j])) for i, j, w in zip(upper.row, upper.col, upper.data)]
-    rows.sort(key=lambda r: (-r[2], -r[3], r[0], r[1]))
-    return rows
+def _pairs(projection: Projection) -> _Pairs:
+    """Return (i, j, weight, shared) for every pair i < j of the projection, heaviest first (sorted in numpy)."""
+    return _Pairs(projection)
+
+
+class _Pairs:
+    """The pairs of a projection sorted heaviest first, as arrays; slicing gives (i, j, weight, shared) rows."""
+
+    def __init__(self, projection: Projection):
+        upper = sp.triu(projection.matrix, k=1, format="csr")
+        counted = sp.triu(projection.shared, k=1, format="csr")
+        upper.sort_indices()
+        counted.sort_indices()
+        if not (np.array_equal(upper.indptr, counted.indptr) and np.array_equal(upper.indices, counted.indices)):
+            raise AssertionError("the weights and the shared counts are not on the same pairs")
+        coo = upper.tocoo()
+        order = np.lexsort((coo.col, coo.row, -counted.data, -coo.data))
+        self.i, self.j = coo.row[order], coo.col[order]
+        self.w, self.s = coo.data[order], counted.data[order]
+
+    def __len__(self) -> int:
+        return len(self.w)
+
+    def __getitem__(self, part: slice) -> list[tuple[int, int, float, int]]:
+        return list(zip(self.i[part].tolist(), self.j[part].tolist(), self.w[part].tolist(), self.s[part].tolist()))
 
 
 def _evidence(session: Session, slice_: Slice):  # noqa: ANN202
     return membership_evidence(session, resolve_slice(session, slice_))
 
 
-def two_mode_view(*, session: Session, slice_: Slice, weighting: str | None = None) -> TwoModePage:
-    """Return the view-model of the two-mode page; a bad ``weighting`` is a 400."""
-    weighting = _weighting(weighting)
+def _page_of(parameter: str, value: str | None, total: int, size: int) -> TablePage:
+    pages = max(1, -(-total // size))
+    page = page_number(value)
+    if page > pages:
+        raise BadParameter(parameter, value, f"a page from 1 to {pages}")
+    first = (page - 1) * size
+    return TablePage(parameter, page, pages, total, first + 1 if total else 0, min(first + size, total))
+
+
+def _shown(rows: list, paging: TablePage) -> list:
+    return rows[paging.first - 1 : paging.last] if paging.total else []
+
+
+def two_mode_view(
+    *, session: Session, slice_: Slice, weighting: str | None = None, pages: dict[str, str | None] | None = None,
+    all_rows: bool = False,
+) -> TwoModePage:
+    """Return the view-model of the two-mode page; a bad ``weighting`` or page number is a 400.
+
+    ``pages`` gives the page of each long table by its query parameter (``persons_page``, ...);
+    ``all_rows`` puts every row on one page (for the CSV downloads).
+    """
+    weighting = _weighting(weighting or slice_.weighting)
+    pages = {} if all_rows else (pages or {})
+
+    def _paging(parameter: str, value: str | None, total: int) -> TablePage:
+        return _page_of(parameter, value, total, max(total, 1) if all_rows else ROWS_PER_PAGE)
     evidence = _evidence(session, slice_)
     summary = two_mode_summary(bipartite_graph(evidence, weight=slice_.weight))
     people = person_refs(session=session, person_ids=summary.person_degree)
     groups = group_refs(session=session, group_ids=summary.group_degree)
     by_name_p = lambda pid: (people[pid].name.casefold(), people[pid].key)  # noqa: E731
     by_name_g = lambda gid: (groups[gid].name.casefold(), groups[gid].key)  # noqa: E731
-    person_degrees = [
-        PersonDegree(people[p], d, summary.person_clustering[p])
-        for p, d in sorted(summary.person_degree.items(), key=lambda item: (-item[1], by_name_p(item[0])))
-    ]
-    group_degrees = [
-        GroupDegree(groups[g], d, summary.group_clustering[g])
-        for g, d in sorted(summary.group_degree.items(), key=lambda item: (-item[1], by_name_g(item[0])))
-    ]
+    paging: dict[str, TablePage] = {}
+    persons_sorted = sorted(summary.person_degree.items(), key=lambda item: (-item[1], by_name_p(item[0])))
+    paging["persons"] = _paging(PAGED["persons"], pages.get(PAGED["persons"]), len(persons_sorted))
+    person_degrees = [PersonDegree(people[p], d, summary.person_clustering[p]) for p, d in _shown(persons_sorted, paging["persons"])]
+    groups_sorted = sorted(summary.group_degree.items(), key=lambda item: (-item[1], by_name_g(item[0])))
+    paging["groups"] = _paging(PAGED["groups"], pages.get(PAGED["groups"]), len(groups_sorted))
+    group_degrees = [GroupDegree(groups[g], d, summary.group_clustering[g]) for g, d in _shown(groups_sorted, paging["groups"])]
     members_of: dict[int, set[int]] = {}
     groups_of: dict[int, set[int]] = {}
     for m in evidence:
@@ -218,16 +288,18 @@ def two_mode_view(*, session: Session, slice_: Slice, weighting: str | None = No
 
     onto_groups = project(evidence, onto="groups", weighting=weighting, overlap=slice_.overlap)
     all_group_pairs = _pairs(onto_groups)
+    paging["group_pairs"] = _paging(PAGED["group_pairs"], pages.get(PAGED["group_pairs"]), len(all_group_pairs))
     group_pairs = []
-    for i, j, w, s in all_group_pairs[:MAX_GROUP_PAIRS]:
+    for i, j, w, s in _shown(all_group_pairs, paging["group_pairs"]):
         a, b = sorted((onto_groups.nodes[i], onto_groups.nodes[j]), key=by_name_g)
         shared = sorted(members_of[a] & members_of[b], key=by_name_p)
         group_pairs.append(GroupPair(groups[a], groups[b], w, s, [people[p] for p in shared]))
 
     onto_persons = project(evidence, onto="persons", weighting=weighting, overlap=slice_.overlap)
     all_person_pairs = _pairs(onto_persons)
+    paging["person_pairs"] = _paging(PAGED["person_pairs"], pages.get(PAGED["person_pairs"]), len(all_person_pairs))
     person_pairs = []
-    for i, j, w, s in all_person_pairs[:TOP_PERSON_PAIRS]:
+    for i, j, w, s in _shown(all_person_pairs, paging["person_pairs"]):
         a, b = sorted((onto_persons.nodes[i], onto_persons.nodes[j]), key=by_name_p)
         shared = sorted(groups_of[a] & groups_of[b], key=by_name_g)
         person_pairs.append(PersonPair(people[a], people[b], w, s, [groups[g] for g in shared]))
@@ -239,7 +311,9 @@ def two_mode_view(*, session: Session, slice_: Slice, weighting: str | None = No
         mean_group_degree=summary.mean_group_degree, mean_person_clustering=summary.mean_person_clustering,
         mean_group_clustering=summary.mean_group_clustering, person_degrees=person_degrees, group_degrees=group_degrees,
         group_pairs=group_pairs, group_pairs_total=len(all_group_pairs), person_pairs=person_pairs,
-        person_pairs_total=len(all_person_pairs),
+        person_pairs_total=len(all_person_pairs), paging=paging,
+        page_parameters=[(t.parameter, str(t.page)) for t in paging.values() if t.page != 1],
+        drawing=two_mode_drawing(evidence, persons=people, groups=groups),
     )  # fmt: skip
 
 
@@ -254,7 +328,7 @@ def two_mode_csv(*, session: Session, slice_: Slice, table: str | None, weightin
         raise BadParameter("table", table, TABLES)
     weighting = _weighting(weighting)
     if table in ("persons", "groups"):
-        page = two_mode_view(session=session, slice_=slice_, weighting=weighting)
+        page = two_mode_view(session=session, slice_=slice_, weighting=weighting, all_rows=True)
         if table == "persons":
             data = Table(["person_key", "person", "groups", "clustering"],
                          [[r.person.key, r.person.name, r.groups, r.clustering] for r in page.person_degrees])  # fmt: skip
@@ -293,30 +367,42 @@ _TWO_MODE = (
     "archives, `unidentified`), `overlap=any|required` says whether shared groups count only where the terms "
     "overlap in time, and `max_group_size=N` leaves out groups of more than N members. `format=csv` with "
     "`table=incidence|persons|groups|group_projection|person_projection` downloads the incidence matrix, the "
-    "degree tables or a projected adjacency matrix, rows and columns labelled by key and name."
+    "degree tables or a projected adjacency matrix, rows and columns labelled by key and name. The long tables "
+    "show 100 rows a page: `person_pairs_page`, `group_pairs_page`, `persons_page` and `groups_page` choose the "
+    "page of each. A drawing puts persons in one column and groups in the other, memberships between (at most "
+    "40 groups, those with most members, and 120 persons, those in most of them; the page says what is left out)."
 )
 
 
 def _respond(request: Request, session: Session, slice_: Slice, weighting: str | None, fmt: str | None,
-             table: str | None) -> Response:  # fmt: skip
+             table: str | None, pages: dict[str, str | None]) -> Response:  # fmt: skip
     if fmt not in (None, "", "csv"):
         raise BadParameter("format", fmt, "csv (or no format, for the page)")
     if fmt == "csv":
         text, name = two_mode_csv(session=session, slice_=slice_, table=table, weighting=weighting)
         return Response(text, media_type="text/csv; charset=utf-8",
                         headers={"Content-Disposition": f'attachment; filename="{name}"'})  # fmt: skip
-    return render(request, two_mode_view(session=session, slice_=slice_, weighting=weighting), template="network_two_mode.html")
+    return render(request, two_mode_view(session=session, slice_=slice_, weighting=weighting, pages=pages),
+                  template="network_two_mode.html")
 
 
 @router.get("/network/two-mode", response_class=HTMLResponse, summary="The two-mode network of a slice (page)",
             description=_TWO_MODE + " The same data in JSON: `/api/network/two-mode`.")  # fmt: skip
 def two_mode_page(request: Request, session: SessionDep, slice_: SliceDep, weighting: str | None = None,
-                  format: str | None = None, table: str | None = None) -> Response:  # noqa: A002  # fmt: skip
-    return _respond(request, session, slice_, weighting, format, table)
+                  format: str | None = None, table: str | None = None, person_pairs_page: str | None = None,
+                  group_pairs_page: str | None = None, persons_page: str | None = None,
+                  groups_page: str | None = None) -> Response:  # noqa: A002  # fmt: skip
+    return _respond(request, session, slice_, weighting, format, table, _pages(locals()))
 
 
 @router.get("/api/network/two-mode", response_model=TwoModePage, summary="The two-mode network of a slice (JSON)",
             description=_TWO_MODE + " The page with the same data: `/network/two-mode`.")  # fmt: skip
 def two_mode_api(request: Request, session: SessionDep, slice_: SliceDep, weighting: str | None = None,
-                 format: str | None = None, table: str | None = None) -> Response:  # noqa: A002  # fmt: skip
-    return _respond(request, session, slice_, weighting, format, table)
+                 format: str | None = None, table: str | None = None, person_pairs_page: str | None = None,
+                 group_pairs_page: str | None = None, persons_page: str | None = None,
+                 groups_page: str | None = None) -> Response:  # noqa: A002  # fmt: skip
+    return _respond(request, session, slice_, weighting, format, table, _pages(locals()))
+
+
+def _pages(given: dict) -> dict[str, str | None]:
+    return {parameter: given[parameter] for parameter in PAGED.values()}

@@ -110,6 +110,48 @@ def test_two_mode_projection_speed(cache_dir):
          lambda: projected_graph(evidence, weighting="newman", overlap="required")),
     ):  # fmt: skip
         figures[label] = timings(call, repeat=1, warmup=0)
+    figures.update(_pages_on_the_projection(database, evidence))
     report("twomode", figures)
     database.dispose()
     assert cold_s < TARGET_S, figures
+
+
+def _pages_on_the_projection(database: Database, evidence: list) -> dict[str, object]:
+    """Time what the pages do under mode=co-membership: the measures' graph, an ego drawing, the two-mode page."""
+    from collections import Counter
+
+    from app.network.ego_memberships import ego_network_in_mode
+    from app.network.results import SliceGraph, get_or_compute
+    from app.views.twomode import two_mode_view
+
+    from app.network.measures.results import MeasureError
+
+    figures: dict[str, object] = {}
+    with database.read() as session:
+        started = time.perf_counter()
+        try:
+            SliceGraph.build(session, Slice(mode="co-membership"))
+            refused = "no"
+        except MeasureError as error:
+            refused = str(error)[:120]
+        figures["mode=co-membership without max_group_size: refused"] = refused
+        figures["  time to refuse (s)"] = round(time.perf_counter() - started, 2)
+    co = Slice(mode="co-membership", weighting="newman", max_group_size=40)  # about 420,000 ties
+    with database.read() as session:
+        started = time.perf_counter()
+        graph = SliceGraph.build(session, co)
+        figures["cold: graph of mode=co-membership for the measures (s)"] = round(time.perf_counter() - started, 2)
+        figures["mode=co-membership: persons, ties"] = [graph.G.number_of_nodes(), graph.G.number_of_edges()]
+    started = time.perf_counter()
+    get_or_compute(database, measure="degree", slice=co.with_(nodes="ties"), recompute=True)
+    figures["degree page on mode=co-membership, computed (s)"] = round(time.perf_counter() - started, 2)
+    busiest = Counter(m.person for m in evidence).most_common(1)[0][0]
+    with database.read() as session:
+        resolved = resolve_slice(session, co)
+        figures["ego drawing under mode=co-membership, person with most groups (s)"] = timings(
+            lambda: ego_network_in_mode(session, resolved, busiest, radius=1), repeat=3, warmup=0)
+        figures["ego drawing under mode=co-membership, radius 2 (s)"] = timings(
+            lambda: ego_network_in_mode(session, resolved, busiest, radius=2), repeat=1, warmup=0)
+        figures["two-mode page with its drawing, whole slice (s)"] = timings(
+            lambda: two_mode_view(session=session, slice_=Slice()), repeat=1, warmup=0)
+    return figures

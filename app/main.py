@@ -20,6 +20,7 @@ from app.db import Database, DatabaseError, check_schema
 from app.network.jobs import Worker
 from app.network.slice import SliceError
 from app.views import ego as ego_views
+from app.views import exports as export_views
 from app.views import groups as groups_views
 from app.views import home
 from app.views import network as network_views
@@ -74,6 +75,7 @@ def create_app(settings: Settings) -> FastAPI:
     app.include_router(ego_views.router)
     app.include_router(network_views.router)
     app.include_router(twomode_views.router)
+    app.include_router(export_views.router)
 
     app.add_exception_handler(StarletteHTTPException, _http_error)
     app.add_exception_handler(RequestValidationError, _invalid_request)

@@ -176,6 +176,10 @@ class Urls:
     def person_measures(self, key: str, slice: Slice | None = None) -> str:
         return self._path(f"/persons/{_seg(key)}/measures", slice)
 
+    def export(self, name: str = "", slice: Slice | None = None, **extra: str | None) -> str:
+        """A file of the slice under ``/export/`` (``export("graphml", slice)``), or the export page."""
+        return self._path("/export" + (f"/{quote(name)}" if name else ""), slice, **extra)
+
     def static(self, path: str) -> str:
         return self._path(f"/static/{path.lstrip('/')}")
 

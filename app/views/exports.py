@@ -175,6 +175,8 @@ def export_ego_png(request: Request, session: SessionDep, slice_: SliceDep, pers
     import cairosvg
 
     svg, name = ego_svg_text(request, session, slice_, person, radius)
+    # cairosvg ignores paint-order, so the labels' white halo would be painted over their letters.
+    svg = svg.replace("</style>", ".ego-svg .ego-label { stroke: none; }</style>", 1)
     return _download(cairosvg.svg2png(bytestring=svg.encode("utf-8"), scale=2, unsafe=False), "image/png", f"{name}.png")
 
 

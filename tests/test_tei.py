@@ -138,3 +138,11 @@ def test_a_bad_date_points_at_its_line_and_attribute(database):
 def test_not_well_formed_xml_is_refused_with_its_line(database):
     tables, problems = read_tei(b"<TEI>\n<teiHeader>\n</TEI>", "broken.xml")
     assert not tables and problems[0].file == "broken.xml" and problems[0].line >= 2
+
+
+def test_the_examples_in_the_tei_module_hold():
+    import doctest
+
+    import app.exchange.tei
+
+    assert doctest.testmod(app.exchange.tei).failed == 0

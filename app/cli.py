@@ -109,6 +109,131 @@ def export(database: str | None, folder: Path) -> None:
         click.echo(f"{name}: {n} rows")
 
 
+def _slice(query: str) -> "Slice":
+    from urllib.parse import parse_qsl
+
+    from app.network.slice import Slice, SliceError
+
+    try:
+        return Slice.from_query(parse_qsl(query.lstrip("?"), keep_blank_values=True))
+    except SliceError as error:
+        _fail(f"--slice: {error}")
+
+
+slice_option = click.option("--slice", "slice_query", default="", metavar="QUERY",
+                            help="The slice as a page's query string, e.g. 'kind=letter&from=1700&to=1720'.")
+
+
+def _report(report) -> None:  # noqa: ANN001
+    for line in report.lines():
+        click.echo(line)
+    click.echo(f"data version {report.data_version}" + ("" if report.changed_anything else " (nothing changed)"))
+
+
+def _read_file(path: Path, limit: int) -> bytes:
+    if not path.is_file():
+        _fail(f"{path}: no such file")
+    if path.stat().st_size > limit:
+        _fail(f"{path}: {path.stat().st_size / 1e6:.1f} MB is over the import size limit of {limit / 1e6:.0f} MB "
+              "(setting ATTESTA_UPLOAD_LIMIT_MB)")
+    return path.read_bytes()
+
+
+@main.command(name="import-tei")
+@db_option
+@click.argument("files", nargs=-1, required=True, type=click.Path(path_type=Path))
+@reports_problems
+def import_tei_command(database: str | None, files: tuple[Path, ...]) -> None:
+    """Import the letters (correspDesc) of TEI files, each file all or nothing."""
+    from app.exchange.tei import import_tei
+
+    settings, db = _open(database)
+    check_schema(db)
+    for path in files:
+        _report(import_tei(db, _read_file(path, settings.upload_limit_bytes), path.name, actor="cli"))
+
+
+@main.command(name="import-graphml")
+@db_option
+@click.argument("file", type=click.Path(path_type=Path))
+@click.option("--source-title", required=True, help="The source every edge is attested by, e.g. 'graph received from a colleague, file X'.")
+@click.option("--source-key", default=None, help="Key of that source (default: made from the title).")
+@click.option("--kind", default="tie", show_default=True, help="Relation kind of edges without a kind attribute.")
+@click.option("--evidence", default="mention", show_default=True, help="Evidence grade of the edges.")
+@click.option("--key-prefix", default="", help="Put before every node id to make its person key.")
+@reports_problems
+def import_graphml_command(database: str | None, file: Path, source_title: str, source_key: str | None, kind: str,
+                           evidence: str, key_prefix: str) -> None:
+    """Import the nodes and edges of a GraphML file, every edge attested by the source you name."""
+    from app.exchange.graphml import import_graphml
+
+    settings, db = _open(database)
+    check_schema(db)
+    _report(import_graphml(db, _read_file(file, settings.upload_limit_bytes), file.name, source_title=source_title,
+                           source_key=source_key, kind=kind, evidence=evidence, key_prefix=key_prefix, actor="cli"))
+
+
+@main.command(name="export-graphml")
+@db_option
+@slice_option
+@click.argument("output", type=click.Path(path_type=Path))
+@reports_problems
+def export_graphml_command(database: str | None, slice_query: str, output: Path) -> None:
+    """Write the slice as GraphML."""
+    from app.exchange.network_export import slice_export, to_graphml
+
+    _, db = _open(database)
+    check_schema(db)
+    with db.read() as session:
+        export = slice_export(session, _slice(slice_query))
+    output.write_bytes(to_graphml(export))
+    click.echo(f"{output}: {len(export.nodes)} persons, {len(export.edges)} ties (data version {export.data_version})")
+
+
+@main.command(name="export-tables")
+@db_option
+@slice_option
+@click.argument("folder", type=click.Path(path_type=Path))
+@reports_problems
+def export_tables_command(database: str | None, slice_query: str, folder: Path) -> None:
+    """Write the slice's persons, ties, adjacency matrix (CSV) and sources (CSL-JSON) into a folder."""
+    import json
+
+    from app.exchange.csl import csl_items
+    from app.exchange.network_export import adjacency_csv, edges_csv, nodes_csv, slice_export
+
+    _, db = _open(database)
+    check_schema(db)
+    folder.mkdir(parents=True, exist_ok=True)
+    with db.read() as session:
+        export = slice_export(session, _slice(slice_query))
+        items = csl_items(session, keys={k for e in export.edges for k in e.source_keys})
+    (folder / "persons.csv").write_text(nodes_csv(export), encoding="utf-8")
+    (folder / "ties.csv").write_text(edges_csv(export), encoding="utf-8")
+    (folder / "matrix.csv").write_text(adjacency_csv(export), encoding="utf-8")
+    (folder / "sources.json").write_text(json.dumps(items, indent=2, ensure_ascii=False), encoding="utf-8")
+    click.echo(f"{folder}: {len(export.nodes)} persons, {len(export.edges)} ties, {len(items)} sources")
+
+
+@main.command()
+@db_option
+@slice_option
+@click.argument("output", type=click.Path(path_type=Path))
+@reports_problems
+def snapshot(database: str | None, slice_query: str, output: Path) -> None:
+    """Write a citable snapshot .zip (workbook, slice, stored measures, README, content hash)."""
+    from app.exchange.snapshot import snapshot_bytes
+
+    settings, db = _open(database)
+    check_schema(db)
+    with db.read() as session:
+        data, cited = snapshot_bytes(session, _slice(slice_query), dataset_name=settings.dataset_name)
+    output.write_bytes(data)
+    click.echo(f"{output}: dataset version {cited.sha256}")
+    click.echo(f"{cited.persons} persons, {cited.sources} sources, {cited.relations} relations, "
+               f"{cited.attestations} attestations")
+
+
 @main.command()
 @db_option
 @click.option("--replace", is_flag=True, help="Replace an existing database file.")

@@ -23,6 +23,7 @@ from app.network.slice import SliceError
 from app.views import audit as audit_views
 from app.views import ego as ego_views
 from app.views import editing as editing_views
+from app.views import exports as export_views
 from app.views import groups as groups_views
 from app.views import home
 from app.views import imports as import_views
@@ -85,6 +86,7 @@ def create_app(settings: Settings) -> FastAPI:
     app.include_router(twomode_views.router)
     app.include_router(import_views.router)
     app.add_middleware(import_views.UploadLimit, limit=settings.upload_limit_bytes)
+    app.include_router(export_views.router)
 
     app.add_exception_handler(StarletteHTTPException, _http_error)
     app.add_exception_handler(RequestValidationError, _invalid_request)

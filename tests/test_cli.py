@@ -128,3 +128,27 @@ def test_demo_refuses_to_overwrite_without_replace(tmp_path):
     result = attesta("demo", "--db", str(target))
     assert result.returncode == 1 and "--replace" in result.stderr
     assert target.read_bytes() == b"precious"
+
+
+def test_tei_graphml_exports_and_snapshot_commands(initialized, tmp_path):
+    tei = ROOT / "tests" / "tei"
+    result = attesta("import-tei", "--db", str(initialized), str(tei / "letters_index.xml"))
+    assert result.returncode == 0, result.stderr
+    assert "letters_index.xml [sources]: 2 added" in result.stdout
+    before = counts(initialized)
+    bomb = attesta("import-tei", "--db", str(initialized), str(tei / "bomb.xml"))
+    assert bomb.returncode == 1 and "bomb.xml:3: (xml):" in bomb.stderr and counts(initialized) == before
+    graphml = tmp_path / "slice.graphml"
+    exported = attesta("export-graphml", "--db", str(initialized), "--slice", "kind=letter", str(graphml))
+    assert exported.returncode == 0 and "4 persons, 5 ties" in exported.stdout
+    untitled = attesta("import-graphml", "--db", str(initialized), str(graphml))
+    assert untitled.returncode != 0 and "--source-title" in untitled.stderr
+    imported = attesta("import-graphml", "--db", str(initialized), str(graphml), "--source-title", "our own export")
+    assert imported.returncode == 0, imported.stderr
+    tables = attesta("export-tables", "--db", str(initialized), str(tmp_path / "tables"))
+    assert tables.returncode == 0 and (tmp_path / "tables" / "matrix.csv").exists()
+    first = attesta("snapshot", "--db", str(initialized), str(tmp_path / "a.zip"))
+    second = attesta("snapshot", "--db", str(initialized), str(tmp_path / "b.zip"))
+    assert first.returncode == 0 and first.stdout.splitlines()[0].split()[-1] == second.stdout.splitlines()[0].split()[-1]
+    bad_slice = attesta("snapshot", "--db", str(initialized), "--slice", "certainty=sure", str(tmp_path / "c.zip"))
+    assert bad_slice.returncode == 1 and "--slice" in bad_slice.stderr

@@ -17,7 +17,7 @@ from sqlalchemy.orm import Session
 
 from app.models import StoredMeasure
 
-__all__ = ["StoredResult", "count_stored_results", "get_slice_size", "get_stored_result", "save_result"]
+__all__ = ["StoredResult", "count_stored_results", "get_slice_size", "get_stored_result", "list_stored_results", "save_result"]
 
 
 @dataclass(frozen=True)
@@ -90,6 +90,15 @@ def count_stored_results(*, session: Session, measure: str | None = None) -> int
     if measure is not None:
         query = query.where(StoredMeasure.measure == measure)
     return session.scalar(query) or 0
+
+
+def list_stored_results(*, session: Session, slice_key: str, visibility: str) -> list[StoredResult]:
+    """Return every result stored for one slice, by measure and options (for exports and snapshots)."""
+    rows = session.scalars(
+        select(StoredMeasure).where(StoredMeasure.slice_key == slice_key, StoredMeasure.visibility == visibility)
+        .order_by(StoredMeasure.measure, StoredMeasure.options)
+    )
+    return [_stored(row) for row in rows]
 
 
 def _stored(row: StoredMeasure, payload: dict[str, Any] | None = None) -> StoredResult:

@@ -234,6 +234,9 @@ class Urls:
 
     def redact(self, entry_id: int) -> str:
         return self._path(f"/audit/{int(entry_id)}/redact")
+    def export(self, name: str = "", slice: Slice | None = None, **extra: str | None) -> str:
+        """A file of the slice under ``/export/`` (``export("graphml", slice)``), or the export page."""
+        return self._path("/export" + (f"/{quote(name)}" if name else ""), slice, **extra)
 
     def static(self, path: str) -> str:
         return self._path(f"/static/{path.lstrip('/')}")

@@ -1,0 +1,79 @@
+"""Rows converted from another format meet the stored data: persons and places found by key or identifier.
+
+A TEI letter or a GraphML graph names persons by its own keys and authority URIs. Before its
+rows go to the workbook importer, :func:`match_existing` renames every row's person or place to
+the stored one that has the same identifier, and makes sure that a stored record keeps what it
+has: its name (the new spelling becomes a variant), kind and identifier. Identifiers already
+stored are not sent again, so importing the same file twice changes nothing.
+"""
+
+from __future__ import annotations
+
+from sqlalchemy import select
+from sqlalchemy.orm import Session
+
+from app.exchange.workbook import Row
+from app.models import Person, PersonIdentifier, PersonName, Place
+
+__all__ = ["match_existing"]
+
+_PERSON_COLUMNS = {"relations.csv": ("person", "other"), "memberships.csv": ("person",), "facts.csv": ("person",)}
+_PLACE_COLUMNS = {"sources.csv": ("place_from", "place_to"), "relations.csv": ("place",), "facts.csv": ("place",),
+                  "repositories.csv": ("place",), "groups.csv": ("place",)}
+
+
+def match_existing(session: Session, tables: dict[str, list[Row]]) -> dict[str, list[Row]]:
+    """Return the tables with persons and places renamed to the stored ones they identify."""
+    stored_persons = {key: (pid, name, kind) for pid, key, name, kind in session.execute(
+        select(Person.id, Person.key, Person.name, Person.kind))}
+    by_identifier = {f"{scheme}:{value}": key for scheme, value, key in session.execute(
+        select(PersonIdentifier.scheme, PersonIdentifier.value, Person.key).join(Person))}
+    renamed_persons: dict[str, str] = {}
+    persons: dict[str, Row] = {}
+    for row in tables.get("persons.csv", []):
+        ids = [i for i in (row.values.get("identifiers") or "").split("|") if i]
+        key = next((by_identifier[i] for i in ids if i in by_identifier), row.values["key"])
+        if key != row.values["key"]:
+            renamed_persons[row.values["key"]] = key
+        values = dict(row.values, key=key)
+        if key in stored_persons:
+            pid, name, _kind = stored_persons[key]
+            spellings = set(session.scalars(select(PersonName.name).where(PersonName.person_id == pid)))
+            new_names = [n for n in [values.get("name"), *(values.get("variants") or "").split("|")] if n and n not in spellings]
+            values = {"key": key, "name": name, "variants": "|".join(dict.fromkeys(new_names)),
+                      "identifiers": "|".join(i for i in ids if by_identifier.get(i) != key)}
+        if key in persons:  # two rows of the file turned out to be one stored person
+            merged = persons[key].values
+            merged["variants"] = "|".join(dict.fromkeys(v for v in (merged.get("variants", "") + "|" + values.get("variants", "")).split("|") if v))
+            merged["identifiers"] = "|".join(dict.fromkeys(v for v in (merged.get("identifiers", "") + "|" + values.get("identifiers", "")).split("|") if v))
+            continue
+        persons[key] = Row(row.file, row.line, values)
+
+    stored_places = {key: (name, identifier) for key, name, identifier in session.execute(
+        select(Place.key, Place.name, Place.identifier))}
+    place_by_identifier = {identifier: key for key, (_name, identifier) in stored_places.items() if identifier}
+    renamed_places: dict[str, str] = {}
+    places: dict[str, Row] = {}
+    for row in tables.get("places.csv", []):
+        identifier = row.values.get("identifier") or ""
+        key = place_by_identifier.get(identifier, row.values["key"]) if identifier else row.values["key"]
+        if key != row.values["key"]:
+            renamed_places[row.values["key"]] = key
+        values = dict(row.values, key=key)
+        if key in stored_places:
+            name, stored_identifier = stored_places[key]
+            values = {"key": key, "name": name}
+            if stored_identifier is None and identifier:
+                values["identifier"] = identifier
+        places.setdefault(key, Row(row.file, row.line, values))
+
+    out = {name: list(rows) for name, rows in tables.items()}
+    out["persons.csv"] = list(persons.values())
+    out["places.csv"] = list(places.values())
+    for renamed, columns_of in ((renamed_persons, _PERSON_COLUMNS), (renamed_places, _PLACE_COLUMNS)):
+        if not renamed:
+            continue
+        for name, columns in columns_of.items():
+            out[name] = [Row(r.file, r.line, {c: renamed.get(v, v) if c in columns else v for c, v in r.values.items()})
+                         for r in out.get(name, [])]
+    return {name: rows for name, rows in out.items() if rows}

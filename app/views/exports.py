@@ -1,0 +1,211 @@
+"""Exports of the current slice (GraphML, tables, matrix, sources as CSL-JSON, the ego drawing as PNG) and snapshots.
+
+``/export`` shows the dataset version (content hash and counts) and links every file of the
+slice; each file route takes the slice from its query string. A snapshot is made by a POST
+(with CSRF token) and answered with the .zip.
+"""
+
+from __future__ import annotations
+
+import json
+import textwrap
+from dataclasses import dataclass
+
+from fastapi import APIRouter, Depends, Query, Request
+from fastapi.responses import HTMLResponse, Response
+from sqlalchemy.orm import Session
+
+from app.auth import CsrfChecked, CurrentActor
+from app.exchange.csl import csl_items
+from app.exchange.network_export import adjacency_csv, edges_csv, nodes_csv, slice_export, to_graphml
+from app.exchange.snapshot import DatasetVersion, dataset_version, snapshot_bytes
+from app.network.slice import Slice
+from app.views.common import BadParameter, SessionDep, SliceDep, render, templates, urls_for
+from app.views.ego import _radius, ego_panel
+
+__all__ = ["router"]
+
+
+
+def relations_only(slice_: SliceDep) -> None:
+    """Refuse ``mode=co-membership|both``: the exported files hold relations and their evidence only."""
+    if slice_.mode != "relations":
+        raise BadParameter("mode", slice_.mode, "relations for exports (the co-membership matrices download from "
+                           "/network/two-mode)")
+
+
+router = APIRouter(tags=["exports"], dependencies=[Depends(relations_only)])
+
+
+@dataclass(frozen=True)
+class ExportLink:
+    """One file of the slice to download."""
+
+    label: str
+    href: str
+    description: str
+
+
+@dataclass(frozen=True)
+class ExportPage:
+    """The dataset version to cite and the files of the slice."""
+
+    slice: Slice
+    """The slice of every file."""
+    slice_summary: str
+    """The slice in words."""
+    version: DatasetVersion
+    """Content hash and counts of the whole dataset."""
+    files: list[ExportLink]
+    """The downloads of the slice."""
+    snapshot_action: str
+    """Where the snapshot button posts to (with the slice)."""
+
+
+def export_links(request: Request, slice_: Slice) -> list[ExportLink]:
+    """Return the downloads of a slice, shared by the export page and the export section of the network pages."""
+    urls = urls_for(request)
+    return [
+        ExportLink("GraphML", urls.export("graphml", slice_), "persons and ties with their attributes, for network software"),
+        ExportLink("Persons (CSV)", urls.export("nodes.csv", slice_), "one row per person: names, life dates, identifiers, stored measures"),
+        ExportLink("Ties (CSV)", urls.export("edges.csv", slice_), "one row per tie: kinds, weight, attestations, documents, source keys"),
+        ExportLink("Adjacency matrix (CSV)", urls.export("matrix.csv", slice_), "tie weights, row person to column person"),
+        ExportLink("Sources (CSL-JSON)", urls.export("sources.json", slice_), "the documents behind the slice's ties, for a reference manager"),
+        ExportLink("Workbook (zip)", urls.export("workbook.zip"), "the whole dataset as a workbook"),
+    ]
+
+
+def _version(request: Request, session: Session) -> DatasetVersion:
+    """The dataset version, kept per data version so the page does not rehash an unchanged dataset."""
+    from app.store.summary import get_data_version
+
+    cache = getattr(request.app.state, "dataset_versions", None)
+    if cache is None:
+        cache = request.app.state.dataset_versions = {}
+    current = get_data_version(session=session)
+    if current not in cache:
+        cache.clear()
+        cache[current] = dataset_version(session)
+    return cache[current]
+
+
+def export_view(request: Request, session: Session, slice_: Slice) -> ExportPage:
+    return ExportPage(slice=slice_, slice_summary=slice_.describe(), version=_version(request, session),
+                      files=export_links(request, slice_), snapshot_action=urls_for(request).export("snapshot", slice_))
+
+
+_SLICE = " The slice is given by the query string, as on every network page."
+
+
+@router.get("/export", response_class=HTMLResponse, summary="Exports and the dataset version (page)",
+            description="The content hash and counts of the dataset (cite it as 'dataset version <hash>'), the files "
+                        "of the slice to download and the snapshot button." + _SLICE)
+def export_page(request: Request, session: SessionDep, slice_: SliceDep) -> Response:
+    return render(request, export_view(request, session, slice_), template="export.html")
+
+
+@router.get("/api/export", response_model=ExportPage, summary="Exports and the dataset version (JSON)",
+            description="The JSON twin of `/export`: content hash, counts and the download links." + _SLICE)
+def export_api(request: Request, session: SessionDep, slice_: SliceDep) -> Response:
+    return render(request, export_view(request, session, slice_), template="export.html")
+
+
+def _download(data: bytes | str, media_type: str, filename: str) -> Response:
+    return Response(data, media_type=media_type, headers={"Content-Disposition": f'attachment; filename="{filename}"'})
+
+
+@router.get("/export/graphml", response_class=Response, summary="The slice as GraphML",
+            description="Persons (id = key; name, kind, life dates, identifiers, stored centralities) and ties (kind, "
+                        "weight, attestations, documents, source keys) as GraphML." + _SLICE,
+            responses={200: {"content": {"application/graphml+xml": {}}}})
+def export_graphml(session: SessionDep, slice_: SliceDep) -> Response:
+    return _download(to_graphml(slice_export(session, slice_)), "application/graphml+xml", "slice.graphml")
+
+
+@router.get("/export/nodes.csv", response_class=Response, summary="The slice's persons as CSV",
+            description="One row per person of the slice with its attributes and stored centralities." + _SLICE)
+def export_nodes(session: SessionDep, slice_: SliceDep) -> Response:
+    return _download(nodes_csv(slice_export(session, slice_)), "text/csv; charset=utf-8", "slice-persons.csv")
+
+
+@router.get("/export/edges.csv", response_class=Response, summary="The slice's ties as CSV",
+            description="One row per tie of the slice: kinds, weight, attestations, documents and source keys." + _SLICE)
+def export_edges(session: SessionDep, slice_: SliceDep) -> Response:
+    return _download(edges_csv(slice_export(session, slice_)), "text/csv; charset=utf-8", "slice-ties.csv")
+
+
+@router.get("/export/matrix.csv", response_class=Response, summary="The slice's adjacency matrix as CSV",
+            description="Tie weights from the row person to the column person, persons in key order." + _SLICE)
+def export_matrix(session: SessionDep, slice_: SliceDep) -> Response:
+    return _download(adjacency_csv(slice_export(session, slice_)), "text/csv; charset=utf-8", "slice-matrix.csv")
+
+
+@router.get("/export/sources.json", response_class=Response, summary="The slice's sources as CSL-JSON",
+            description="The documents that attest the slice's ties as CSL-JSON items: archival ones as `manuscript` "
+                        "with archive, archive_location and call-number, printed ones as `book` with author, title, "
+                        "publisher and issued." + _SLICE)
+def export_sources(session: SessionDep, slice_: SliceDep) -> Response:
+    keys = {k for e in slice_export(session, slice_).edges for k in e.source_keys}
+    return _download(json.dumps(csl_items(session, keys=keys), indent=2, ensure_ascii=False),
+                     "application/vnd.citationstyles.csl+json", "slice-sources.json")
+
+
+@router.get("/export/workbook.zip", response_class=Response, summary="The whole dataset as a workbook (.zip)",
+            description="Every workbook file with keys filled in, as `attesta export` writes them; `attesta import` reads it back.")
+def export_workbook_zip(session: SessionDep) -> Response:
+    import io
+    import zipfile
+
+    from app.exchange.snapshot import _workbook_files
+
+    buffer = io.BytesIO()
+    with zipfile.ZipFile(buffer, "w", zipfile.ZIP_DEFLATED) as archive:
+        for name, data in _workbook_files(session).items():
+            archive.writestr(f"workbook/{name}", data)
+    return _download(buffer.getvalue(), "application/zip", "workbook.zip")
+
+
+_KEY = Query(..., description="The key of the person at the centre.")
+_RADIUS = Query("1", description="1 or 2, as on the ego page.")
+
+
+@router.get("/export/ego.svg", response_class=Response, summary="An ego drawing as SVG",
+            description="The ego drawing of `person` with its legend and a caption naming the slice and the data version." + _SLICE,
+            responses={200: {"content": {"image/svg+xml": {}}}})
+def export_ego_svg(request: Request, session: SessionDep, slice_: SliceDep, person: str = _KEY, radius: str = _RADIUS) -> Response:
+    svg, name = ego_svg_text(request, session, slice_, person, radius)
+    return _download(svg, "image/svg+xml", f"{name}.svg")
+
+
+@router.get("/export/ego.png", response_class=Response, summary="An ego drawing as PNG",
+            description="The same drawing as `/export/ego.svg`, rendered to PNG at twice its size (cairosvg)." + _SLICE,
+            responses={200: {"content": {"image/png": {}}}})
+def export_ego_png(request: Request, session: SessionDep, slice_: SliceDep, person: str = _KEY, radius: str = _RADIUS) -> Response:
+    import cairosvg
+
+    svg, name = ego_svg_text(request, session, slice_, person, radius)
+    # cairosvg ignores paint-order, so the labels' white halo would be painted over their letters.
+    svg = svg.replace("</style>", ".ego-svg .ego-label { stroke: none; }</style>", 1)
+    return _download(cairosvg.svg2png(bytestring=svg.encode("utf-8"), scale=2, unsafe=False), "image/png", f"{name}.png")
+
+
+def ego_svg_text(request: Request, session: Session, slice_: Slice, person: str, radius: str) -> tuple[str, str]:
+    """Return the standalone SVG of an ego drawing, with its caption, and a file name for it."""
+    view = ego_panel(session=session, person_key=person, slice=slice_, radius=_radius(radius))
+    caption = (f"Ego network of {view.name} ({view.key}), radius {view.radius}. Slice: {view.summary}. "
+               f"Attesta, data version {view.data_version}.")
+    svg = templates.get_template("ego_download.svg").render(page=view, urls=urls_for(request),
+                                                            caption_lines=textwrap.wrap(caption, 120))
+    return svg, f"ego-{view.key.replace(':', '_')}-radius{view.radius}"
+
+
+@router.post("/export/snapshot", response_class=Response, summary="Make a citable snapshot (.zip)",
+             description="Answers a .zip with the whole workbook, the slice definition, every measure result stored for "
+                         "the slice, a README (dataset name, date, counts, software version) and the content hash. "
+                         "Needs the form's CSRF token." + _SLICE,
+             responses={200: {"content": {"application/zip": {}}}})
+def export_snapshot(request: Request, _: CsrfChecked, actor: CurrentActor, session: SessionDep, slice_: SliceDep) -> Response:
+    data, cited = snapshot_bytes(session, slice_, dataset_name=request.app.state.settings.dataset_name)
+    response = _download(data, "application/zip", f"snapshot-{cited.sha256[:12]}.zip")
+    response.headers["X-Dataset-Version"] = cited.sha256
+    return response

@@ -176,6 +176,18 @@ class Urls:
     def person_measures(self, key: str, slice: Slice | None = None) -> str:
         return self._path(f"/persons/{_seg(key)}/measures", slice)
 
+    def login(self, next: str | None = None) -> str:  # noqa: A002
+        return self._path("/login", next=next)
+
+    def logout(self) -> str:
+        return self._path("/logout")
+
+    def admin_users(self) -> str:
+        return self._path("/admin/users")
+
+    def admin_user_disable(self, name: str) -> str:
+        return self._path(f"/admin/users/{_seg(name)}/disable")
+
     def static(self, path: str) -> str:
         return self._path(f"/static/{path.lstrip('/')}")
 

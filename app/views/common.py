@@ -302,6 +302,9 @@ def render(
     ``template`` is the full page, which includes ``partial``; both see the view-model as
     ``page`` and the URL builder as ``urls``, and the full page also sees ``layout``.
     """
+    from app.views.redaction import redact_for  # imports app.auth and the store, as this module does
+
+    view = redact_for(request, view)  # after every cache: a reader never sees a restricted person
     if is_api_request(request):
         return JSONResponse(to_json(view), status_code=status_code, headers=headers)
     context = {"page": view, "urls": urls_for(request), "csrf_token": csrf_token(request),

@@ -25,6 +25,7 @@ from __future__ import annotations
 
 import hmac
 import ipaddress
+from contextvars import ContextVar
 import secrets
 from dataclasses import dataclass
 from datetime import datetime, timedelta, timezone
@@ -52,12 +53,14 @@ __all__ = [
     "EditorActor",
     "LOCAL_ACTOR",
     "LoginRefused",
+    "ReaderActor",
     "LOOPBACK_HOSTS",
     "check_csrf",
     "csrf_token",
     "current_actor",
     "end_session",
     "hash_password",
+    "request_visibility",
     "require_role",
     "sign_in",
     "start_session",
@@ -265,6 +268,18 @@ def visibility_of(actor: Actor) -> str:
     return "all" if actor.can("editor") else "public"
 
 
+_visibility: ContextVar[str] = ContextVar("attesta_visibility", default="all")
+
+
+def request_visibility() -> str:
+    """Return the visibility of the request being answered ("all" outside a request: the CLI, the worker).
+
+    :class:`AccessGate` sets it from the request's actor before any route runs, so stored results
+    and kept drawings are looked up and stored under the viewer's visibility.
+    """
+    return _visibility.get()
+
+
 def require_role(role: str):
     """Return a dependency that gives the actor, or answers 401/403 unless their role is ``role`` or above."""
 
@@ -325,6 +340,7 @@ async def check_csrf(request: Request) -> None:
 
 
 CurrentActor = Annotated[Actor, Depends(current_actor)]
+ReaderActor = Annotated[Actor, Depends(require_role("reader"))]  # signed in (or the local user)
 EditorActor = Annotated[Actor, Depends(require_role("editor"))]
 AdminActor = Annotated[Actor, Depends(require_role("admin"))]
 CsrfChecked = Annotated[None, Depends(check_csrf)]
@@ -374,6 +390,7 @@ class AccessGate:
         if refusal is not None:
             await refusal(scope, receive, send)
             return
+        visibility = _visibility.set(visibility_of(current_actor(request)))
 
         async def send_with_cookie(message: Message) -> None:
             if message["type"] == "http.response.start" and scope.get("attesta.new_csrf"):
@@ -385,7 +402,10 @@ class AccessGate:
                                       *((k, v) for k, v in cookie.raw_headers if k == b"set-cookie")]
             await send(message)
 
-        await self.app(scope, receive, send_with_cookie)
+        try:
+            await self.app(scope, receive, send_with_cookie)
+        finally:
+            _visibility.reset(visibility)
 
     def _refusal(self, request: Request) -> Response | None:
         settings = request.app.state.settings

@@ -36,7 +36,8 @@ RESTRICTED_NAME = "restricted person"
 NAME_FIELDS = frozenset({"name", "label", "display_name", "sort_name", "title", "ego_name"})
 EVIDENCE_FIELDS = frozenset({
     "quote", "note", "value", "locus", "person_as_written", "other_as_written", "as_written", "written",
-    "matched_variant", "text", "born", "died", "caption", "summary_text",
+    "matched_variant", "text", "born", "died", "caption", "summary_text", "role", "start", "end", "term",
+    "earliest", "latest", "dates", "years", "date", "source_keys",
 })  # fmt: skip
 KEY_CHARACTERS = r"[\w.:-]"
 

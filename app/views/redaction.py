@@ -10,6 +10,8 @@ show a reader more than this pass leaves. The pass works on the shape of the vie
   is blanked, lists (names, facts, identifiers, relations) are emptied and dates dropped;
 - a record that holds such a person (a relation row, an attested tie) loses its quotes, notes,
   loci, names as written and values, down to the attestations inside it;
+- a page about such a person (the person page, the ego drawing, ties and relations with them, the
+  person's measures) is refused with 403 and a sentence saying why;
 - any text left anywhere (captions, notes, table cells, links) has each spelling of a restricted
   person's name replaced by "restricted person" and each of their keys by "restricted".
 
@@ -23,7 +25,7 @@ import re
 from datetime import date, datetime
 from typing import Any
 
-from fastapi import Request
+from fastapi import HTTPException, Request
 
 from app.auth import current_actor, visibility_of
 from app.store.privacy import RestrictedPersons, list_restricted_persons
@@ -34,12 +36,14 @@ __all__ = ["RESTRICTED_KEY", "RESTRICTED_NAME", "Redactor", "redact_for", "restr
 RESTRICTED_KEY = "restricted"
 RESTRICTED_NAME = "restricted person"
 NAME_FIELDS = frozenset({"name", "label", "display_name", "sort_name", "title", "ego_name"})
-EVIDENCE_FIELDS = frozenset({
-    "quote", "note", "value", "locus", "person_as_written", "other_as_written", "as_written", "written",
-    "matched_variant", "text", "born", "died", "caption", "summary_text", "role", "start", "end", "term",
-    "earliest", "latest", "dates", "years", "date", "source_keys",
-})  # fmt: skip
+EVIDENCE_WORDS = frozenset({
+    "quote", "note", "locus", "written", "value", "text", "date", "dates", "term", "start", "end", "role", "born",
+    "died", "caption", "variant", "variants", "years", "earliest", "latest", "keys", "identifiers", "facts",
+})  # a field whose name has one of these words (split at "_") says something about the person
+LAYOUT_FIELDS = frozenset({"kind", "shape", "anchor", "colour", "dash", "path"})  # how a mark is drawn, not who
 KEY_CHARACTERS = r"[\w.:-]"
+RESTRICTED_PAGE = ("This is a restricted person (recorded as living, or born too recently): their name, dates, "
+                   "facts and evidence are shown to editors only. Elsewhere they appear as \"restricted person\".")
 
 
 class Redactor:
@@ -49,9 +53,11 @@ class Redactor:
         self.restricted = restricted
         self.keys = restricted.keys
         self._lower_keys = {key.lower() for key in restricted.keys}
-        words = [re.escape(key) for key in sorted(restricted.keys, key=len, reverse=True)]
-        words += [re.escape(name) for name in restricted.names]
-        self._pattern = re.compile(rf"(?<!{KEY_CHARACTERS})(?:{'|'.join(words)})(?!{KEY_CHARACTERS})", re.I) if words else None
+        keys = "|".join(re.escape(key) for key in sorted(restricted.keys, key=len, reverse=True))
+        names = "|".join(re.escape(name) for name in restricted.names)
+        parts = ([rf"(?<!{KEY_CHARACTERS})(?:{keys})(?!{KEY_CHARACTERS})"] if keys else []) + (
+            [rf"(?<!\w)(?:{names})(?!\w)"] if names else [])
+        self._pattern = re.compile("|".join(parts), re.I) if parts else None
 
     # -- text -----------------------------------------------------------------------------------
 
@@ -72,11 +78,22 @@ class Redactor:
         """Return ``value`` rewritten; parts with nothing to hide are returned as they are."""
         return self._walk(value)[0]
 
+    def is_about_restricted(self, view: Any) -> bool:
+        """True for a page about a restricted person: the person itself, or a page whose own field is one."""
+        if self._is_restricted(view):
+            return True
+        if not dataclasses.is_dataclass(view) or isinstance(view, type):
+            return False
+        return any(self._is_restricted(getattr(view, field.name)) for field in dataclasses.fields(view))
+
     def _is_restricted(self, value: Any) -> bool:
         if not dataclasses.is_dataclass(value) or isinstance(value, type):
             return False
         key = getattr(value, "key", None)
-        return isinstance(key, str) and key in self.keys and any(hasattr(value, f) for f in NAME_FIELDS)
+        if isinstance(key, str) and key in self.keys and any(hasattr(value, f) for f in NAME_FIELDS):
+            return True
+        key = getattr(value, "person_key", None)  # a name as written, a member: the person by key
+        return isinstance(key, str) and key in self.keys
 
     def _walk(self, value: Any) -> tuple[Any, bool]:
         """Return (rewritten value, whether it is or holds a restricted person directly)."""
@@ -98,10 +115,13 @@ class Redactor:
                 holds = holds or (restricted and not isinstance(old, (list, tuple, set, frozenset, dict)))
                 if new is not old:
                     changes[field.name] = new
-            if holds:
+            if holds:  # a record about a restricted person: its evidence goes, down to its attestations
                 for field in dataclasses.fields(value):
-                    if field.name in EVIDENCE_FIELDS or field.name == "attestations" and isinstance(getattr(value, field.name), list):
-                        changes[field.name] = self._blank_value(changes.get(field.name, getattr(value, field.name)))
+                    current = changes.get(field.name, getattr(value, field.name))
+                    if _says_something(field.name):
+                        changes[field.name] = self._blank_value(current)
+                    elif field.name == "attestations" or dataclasses.is_dataclass(current) or isinstance(current, list):
+                        changes[field.name] = self._blank_evidence(current)
             return (self._replace(value, changes) if changes else value), False
         if isinstance(value, dict):
             items = [(self._walk(k)[0], self._walk(v)[0]) for k, v in value.items()]
@@ -127,11 +147,24 @@ class Redactor:
                 changes[field.name] = RESTRICTED_KEY
             elif field.name in NAME_FIELDS and isinstance(old, str):
                 changes[field.name] = RESTRICTED_NAME
-            elif field.name == "kind":
+            elif field.name in LAYOUT_FIELDS:
                 continue
             else:
                 changes[field.name] = self._blank_value(old)
         return self._replace(value, changes)
+
+    def _blank_evidence(self, value: Any) -> Any:
+        """Return ``value`` with every field that says something about a person blanked, at every depth."""
+        if isinstance(value, list):
+            return [self._blank_evidence(item) for item in value]
+        if dataclasses.is_dataclass(value) and not isinstance(value, type):
+            changes = {}
+            for field in dataclasses.fields(value):
+                current = getattr(value, field.name)
+                changes[field.name] = (self._blank_value(current) if _says_something(field.name)
+                                       else self._blank_evidence(current))
+            return self._replace(value, changes)
+        return value
 
     def _blank_value(self, value: Any) -> Any:
         """Return ``value`` with its text blanked, lists emptied and dates dropped; numbers and flags stay."""
@@ -157,6 +190,10 @@ class Redactor:
             if name not in changes and not hasattr(copy, name):
                 object.__setattr__(copy, name, attribute)
         return copy
+
+
+def _says_something(field_name: str) -> bool:
+    return any(word in EVIDENCE_WORDS for word in field_name.lower().split("_"))
 
 
 def restricted_for(request: Request) -> RestrictedPersons | None:
@@ -185,4 +222,6 @@ def redact_for(request: Request, view: Any) -> Any:
     redactor = getattr(state, "redactor", None)
     if redactor is None or redactor.restricted is not restricted:
         redactor = state.redactor = Redactor(restricted)
+    if redactor.is_about_restricted(view):
+        raise HTTPException(403, RESTRICTED_PAGE)
     return redactor.redact(view)

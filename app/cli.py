@@ -6,7 +6,9 @@ Every command takes ``--db`` (a path or a database URL; default ``ATTESTA_DATABA
 
 from __future__ import annotations
 
+import ipaddress
 import os
+import secrets
 import shutil
 import sys
 import tempfile
@@ -18,10 +20,14 @@ import click
 from tqdm import tqdm
 
 from app.backup import backup_database, is_newest, restore_database
+from app.auth import hash_password
 from app.config import Settings
 from app.db import Database, DatabaseError, check_schema, upgrade
 from app.exchange.workbook import WorkbookError, export_workbook, import_workbook
+from app.models import ROLES
+from app.store.users import UserError, count_users, create_user, disable_user, list_users
 
+MIN_PASSWORD = 10
 DEMO_WORKBOOK = Path(__file__).resolve().parent.parent / "sample_data" / "demo"
 
 db_option = click.option(
@@ -263,6 +269,38 @@ def demo(database: str | None, replace: bool) -> None:
         click.echo(line)
 
 
+def _is_loopback(host: str) -> bool:
+    name = host.strip().strip("[]").lower()
+    if name == "localhost":
+        return True
+    try:
+        return ipaddress.ip_address(name).is_loopback
+    except ValueError:
+        return False
+
+
+def serve_refusal(settings: Settings, db: Database, host: str) -> str | None:
+    """Return why ``attesta serve`` may not listen on ``host``, or None.
+
+    On an address other than loopback the instance is reachable by others: it needs an admin
+    account (else nobody could sign in, or the local user's full rights would be open to all) and
+    a configured secret key (else sessions would not survive a restart or be shared by processes).
+    """
+    if _is_loopback(host):
+        return None
+    missing = []
+    with db.read() as session:
+        if count_users(session=session, role="admin") == 0:
+            missing.append("at least one admin: `attesta user add NAME --role admin`")
+    if not settings.secret_key:
+        missing.append("a secret key in ATTESTA_SECRET_KEY, for example "
+                       "`export ATTESTA_SECRET_KEY=$(python3 -c 'import secrets; print(secrets.token_urlsafe(32))')`")
+    if not missing:
+        return None
+    return (f"refusing to serve on {host}, an address other machines can reach, until there is "
+            + " and ".join(missing) + ". On 127.0.0.1 (the default) it serves at once, for one person.")
+
+
 @main.command()
 @db_option
 @click.argument("target", type=click.Path(path_type=Path))
@@ -302,10 +340,85 @@ def serve(database: str | None, host: str, port: int) -> None:
 
     settings, db = _open(database)
     check_schema(db)
+    refusal = serve_refusal(settings, db, host)
     db.dispose()
+    if refusal:
+        _fail(refusal)
     os.environ["ATTESTA_DATABASE_URL"] = settings.database_url
     click.echo(f"serving {settings.database_url} on http://{host}:{port}/")
-    uvicorn.run(create_app(settings), host=host, port=port, log_level="warning")
+    # X-Forwarded-* headers are believed only from configured proxies (uvicorn would otherwise
+    # believe them from 127.0.0.1, so anyone on this machine could pose as another client).
+    proxies = list(settings.trusted_proxies)
+    uvicorn.run(create_app(settings), host=host, port=port, log_level="warning",
+                proxy_headers=bool(proxies), forwarded_allow_ips=proxies or None)
+
+
+# --- accounts ------------------------------------------------------------------------------------
+
+
+@main.group()
+def user() -> None:
+    """Accounts of a shared instance: add, list and disable users."""
+
+
+@user.command(name="add")
+@db_option
+@click.argument("name")
+@click.option("--role", type=click.Choice(ROLES), required=True, help="reader, editor or admin.")
+@click.option("--generate", is_flag=True, help="Generate a password and print it once instead of asking for one.")
+@reports_problems
+def user_add(database: str | None, name: str, role: str, generate: bool) -> None:
+    """Add a user (asks for the password twice, or --generate prints a generated one once)."""
+    _, db = _open(database)
+    check_schema(db)
+    if generate:
+        password = secrets.token_urlsafe(15)
+    else:
+        password = click.prompt("password", hide_input=True, confirmation_prompt="password again")
+        if len(password) < MIN_PASSWORD:
+            _fail(f"the password is too short: use at least {MIN_PASSWORD} characters, or --generate")
+    try:
+        with db.write() as session:
+            created = create_user(session=session, name=name, role=role, password_hash=hash_password(password),
+                                  actor="cli")
+    except UserError as error:
+        _fail(str(error))
+    click.echo(f"user {created.name} added as {created.role}")
+    if generate:
+        click.echo(f"password (shown only now): {password}")
+
+
+@user.command(name="list")
+@db_option
+@reports_problems
+def user_list(database: str | None) -> None:
+    """List the users with role and state."""
+    _, db = _open(database)
+    check_schema(db)
+    with db.read() as session:
+        users = list_users(session=session)
+    if not users:
+        click.echo("no users: the instance runs for one local user on 127.0.0.1")
+    for info in users:
+        state = "disabled" if info.disabled else (f"locked until {info.locked_until:%Y-%m-%d %H:%M} UTC"
+                                                   if info.locked_until else "active")
+        click.echo(f"{info.name}\t{info.role}\t{state}\tadded {info.created_at:%Y-%m-%d}")
+
+
+@user.command(name="disable")
+@db_option
+@click.argument("name")
+@reports_problems
+def user_disable(database: str | None, name: str) -> None:
+    """Disable a user: no more sign-ins, and their sessions end."""
+    _, db = _open(database)
+    check_schema(db)
+    try:
+        with db.write() as session:
+            info = disable_user(session=session, name=name, actor="cli")
+    except UserError as error:
+        _fail(str(error))
+    click.echo(f"user {info.name} disabled")
 
 
 if __name__ == "__main__":

@@ -5,6 +5,7 @@ Serve it with ``uvicorn app.main:app_from_env --factory`` (settings from ``ATTES
 
 from __future__ import annotations
 
+import secrets
 from collections.abc import AsyncIterator
 from contextlib import asynccontextmanager
 from http import HTTPStatus
@@ -16,11 +17,13 @@ from fastapi.staticfiles import StaticFiles
 from starlette.exceptions import HTTPException as StarletteHTTPException
 
 from app.backup import serving_lock
+from app.auth import AccessGate
 from app.config import Settings
 from app.db import Database, DatabaseError, check_schema
 from app.network.jobs import Worker
 from app.network.slice import SliceError
 from app.views import audit as audit_views
+from app.views import accounts as accounts_views
 from app.views import ego as ego_views
 from app.views import editing as editing_views
 from app.views import exports as export_views
@@ -70,12 +73,17 @@ def create_app(settings: Settings) -> FastAPI:
     app.state.settings = settings
     app.state.database = database
     app.state.worker = worker
+    # Signs session and CSRF cookies. Without a configured key a random one serves this process
+    # only (a laptop instance; `attesta serve` on another address demands ATTESTA_SECRET_KEY).
+    app.state.secret_key = settings.secret_key or secrets.token_urlsafe(32)
+    app.add_middleware(AccessGate, allowed_hosts=settings.allowed_hosts)
 
     app.mount("/static", StaticFiles(directory=STATIC_DIR), name="static")
     app.include_router(home.router)
     app.include_router(editing_views.router)  # before persons: /persons/{key}/edit is not a person's page
     app.include_router(records_views.router)
     app.include_router(audit_views.router)
+    app.include_router(accounts_views.router)
     app.include_router(persons_views.router)
     app.include_router(groups_views.router)
     app.include_router(sources_views.router)

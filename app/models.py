@@ -454,6 +454,11 @@ class User(Base):
     password_hash: Mapped[str | None] = mapped_column(String(300))
     disabled: Mapped[bool] = mapped_column(Boolean, default=False)
     created_at: Mapped[datetime] = mapped_column(DateTime)
+    # Kept in the database so that every server process sees the same count and lock.
+    failed_logins: Mapped[int] = mapped_column(Integer, default=0, server_default="0")
+    locked_until: Mapped[datetime | None] = mapped_column(DateTime)
+    # Part of every session cookie: raising it (disable, new password) ends the user's sessions.
+    session_epoch: Mapped[int] = mapped_column(Integer, default=0, server_default="0")
 
 
 class AuditEntry(Base):

@@ -15,12 +15,28 @@ import shutil
 from pathlib import Path
 
 import pytest
+from fastapi.testclient import TestClient
 
 from app.config import Settings, database_url
 from app.db import Database, upgrade
 from tests.postgres import PostgresServer, postgres_bin_dir
 
 ROOT = Path(__file__).resolve().parent.parent
+
+# The app answers only loopback Host names (and names configured in ATTESTA_ALLOWED_HOSTS) and
+# treats only a loopback client as the local user of a laptop instance; by default the test
+# client talks to it as a browser on the same machine does, at http://127.0.0.1 from 127.0.0.1.
+_test_client_init = TestClient.__init__
+
+
+def _laptop_test_client(self, app, *args, **kwargs):  # noqa: ANN001, ANN002, ANN003
+    if not args:
+        kwargs.setdefault("base_url", "http://127.0.0.1")
+    kwargs.setdefault("client", ("127.0.0.1", 50000))
+    _test_client_init(self, app, *args, **kwargs)
+
+
+TestClient.__init__ = _laptop_test_client
 DEMO_WORKBOOK = ROOT / "sample_data" / "demo"
 ARTIFACTS = ROOT / "test-artifacts"
 

@@ -164,7 +164,9 @@ def test_an_isolate_changes_n_but_not_raw_betweenness_and_stale_results_wait_for
     assert degree_after["context"]["freshness"]["stale"] is False
 
     # the recompute button replaces the stored table, and the page then has no stale note
-    response = client.post(form["action"], follow_redirects=False)
+    token = form.select_one("input[name=csrf_token]")["value"]
+    assert client.post(form["action"], follow_redirects=False).status_code == 403  # no CSRF token: refused
+    response = client.post(form["action"], data={"csrf_token": token}, follow_redirects=False)
     assert response.status_code == 303
     assert response.headers["location"] == "/network/centrality?direction=undirected&measure=betweenness"
     assert soup_of(client.get(response.headers["location"])).select_one(".stale-note") is None
@@ -466,7 +468,8 @@ def test_a_directed_measure_on_an_undirected_slice_says_why(client: TestClient):
 
 
 def test_unknown_pages_and_persons_are_404s(client: TestClient):
-    assert client.post("/network/fame/recompute").status_code == 404
+    token = client.get("/api/login").json()["csrf_token"]
+    assert client.post("/network/fame/recompute", headers={"X-CSRF-Token": token}).status_code == 404
     response = client.get("/persons/nobody/measures")
     assert response.status_code == 404
     assert soup_of(response).select_one("#error .error-detail").get_text() == "There is no person with the key nobody."

@@ -75,8 +75,10 @@ def test_first_command_serves_the_demo(tmp_path):
 
 
 def test_every_command_is_documented():
-    for name in cli_main.commands:
+    for name, command in cli_main.commands.items():
         assert f"`attesta {name}" in README, f"attesta {name} has no line in README.md"
+        for sub in getattr(command, "commands", {}):  # a group: each of its commands has its line
+            assert f"`attesta {name} {sub}" in README, f"attesta {name} {sub} has no line in README.md"
 
 
 def test_every_setting_is_documented():

@@ -22,7 +22,7 @@ def client(database, db_path, tmp_path):
     world["sources.csv"][1]["url"] = "https://example.org/vfp/1-2"
     world["persons.csv"][1]["name"] = '=HYPERLINK("https://example.org","click")'
     import_workbook(database, write_workbook(tmp_path / "wb", world), size_limit=10**9)
-    return TestClient(create_app(Settings(database_url=database_url(db_path))))
+    return TestClient(create_app(Settings(database_url=database_url(db_path), allowed_hosts=("archive.example",))))
 
 
 def test_only_web_addresses_become_links(client):
@@ -46,7 +46,7 @@ def test_redirect_of_an_old_key_stays_on_this_site(client, database):
     with database.write() as session:
         jost = session.scalar(select(Person).where(Person.key == "p-jost"))
         session.add(PersonAlias(key="p-jost-old", person_id=jost.id))
-    response = client.get("/persons/p-jost-old?kind=letter", headers={"Host": "elsewhere.example"}, follow_redirects=False)
+    response = client.get("/persons/p-jost-old?kind=letter", headers={"Host": "archive.example"}, follow_redirects=False)
     assert response.status_code == 308
     assert response.headers["location"] == "/persons/p-jost?kind=letter"
 

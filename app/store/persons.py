@@ -334,14 +334,16 @@ MATCH_NAMES = ("exact", "prefix", "word", "contains", "words", "fuzzy")
 
 
 def search_persons(
-    *, session: Session, q: str = "", sort: str = "match", page: int = 1, per_page: int = PER_PAGE
+    *, session: Session, q: str = "", sort: str = "match", page: int = 1, per_page: int = PER_PAGE,
+    hidden_ids: frozenset[int] = frozenset(),
 ) -> PersonList:
     """Return one page of the persons matching ``q`` (all persons when it is blank), sorted.
 
     Persons found by exact, prefix or substring matches of a name variant come before those
     found only as near spellings, whatever the sort; within each part the sort decides
     (``match``: closest first; ``name``; ``attestations`` and ``degree``: most first).
-    A page past the last gives no rows.
+    A page past the last gives no rows. ``hidden_ids`` (persons the viewer may not see by name)
+    are never found by a search and come last in the whole list, so neither reveals their names.
     """
     if sort not in PERSON_SORTS:
         raise ValueError(f"sort must be one of {PERSON_SORTS}")
@@ -351,13 +353,17 @@ def search_persons(
     )}  # fmt: skip
     folded = q.strip() and fold(q)
     matches = _match(session, folded, {pid: p.name for pid, p in persons.items()}) if folded else {}
-    found = list(matches) if folded else list(persons)
+    found = [pid for pid in matches if pid not in hidden_ids] if folded else list(persons)
 
     def name_key(pid: int) -> tuple[str, str]:
+        if pid in hidden_ids:
+            return ("", str(pid))
         person = persons[pid]
         return _sort_fold(person.sort_name or person.name), person.key
 
     def part(pid: int) -> int:
+        if pid in hidden_ids:
+            return 2
         return 1 if folded and matches[pid].rank == 5 else 0
 
     counts: dict[int, int] = {}
@@ -391,7 +397,7 @@ def search_persons(
         ))  # fmt: skip
     return PersonList(
         q=q.strip(), sort=sort, page=page, pages=pages, per_page=per_page, total=len(found),
-        fuzzy=sum(1 for pid in found if part(pid)), rows=rows,
+        fuzzy=sum(1 for pid in found if part(pid) == 1), rows=rows,
     )
 
 

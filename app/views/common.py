@@ -238,6 +238,18 @@ class Urls:
         """A file of the slice under ``/export/`` (``export("graphml", slice)``), or the export page."""
         return self._path("/export" + (f"/{quote(name)}" if name else ""), slice, **extra)
 
+    def login(self, next: str | None = None) -> str:  # noqa: A002
+        return self._path("/login", next=next)
+
+    def logout(self) -> str:
+        return self._path("/logout")
+
+    def admin_users(self) -> str:
+        return self._path("/admin/users")
+
+    def admin_user_disable(self, name: str) -> str:
+        return self._path(f"/admin/users/{_seg(name)}/disable")
+
     def static(self, path: str) -> str:
         return self._path(f"/static/{path.lstrip('/')}")
 
@@ -353,6 +365,9 @@ def render(
     ``template`` is the full page, which includes ``partial``; both see the view-model as
     ``page`` and the URL builder as ``urls``, and the full page also sees ``layout``.
     """
+    from app.views.redaction import redact_for  # imports app.auth and the store, as this module does
+
+    view = redact_for(request, view)  # after every cache: a reader never sees a restricted person
     if is_api_request(request):
         return JSONResponse(to_json(view), status_code=status_code, headers=headers)
     context = {"page": view, "urls": urls_for(request), "csrf_token": csrf_token(request),

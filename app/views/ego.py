@@ -17,6 +17,7 @@ from fastapi import APIRouter, HTTPException, Query, Request
 from fastapi.responses import HTMLResponse, Response
 from sqlalchemy.orm import Session
 
+from app.auth import request_visibility
 from app.network.drawing import Drawing, ego_drawing
 from app.network.ego import EgoEdge, EgoNetwork, EgoNode
 from app.network.ego_memberships import ego_network_in_mode
@@ -24,6 +25,7 @@ from app.network.slice import Slice, resolve_slice
 from app.store.network_labels import get_person_label, list_relation_kinds
 from app.store.summary import get_data_version
 from app.views.common import BadParameter, SessionDep, SliceDep, render, templates, urls_for
+from app.views.redaction import redact_for
 from app.views.slicing import SliceControls, slice_controls
 
 __all__ = ["EgoPanel", "ego_panel", "router"]
@@ -69,7 +71,7 @@ class EgoPanel:
 _PANELS: OrderedDict[tuple, EgoPanel] = OrderedDict()
 _PANELS_LOCK = threading.Lock()
 PANEL_CACHE_SIZE = 128
-"""Ego panels kept in memory per server process, keyed by database, data version, slice, person and radius."""
+"""Ego panels kept in memory per server process, keyed by database, data version, visibility, slice, person and radius."""
 
 
 def ego_panel(*, session: Session, person_key: str, slice: Slice, radius: int) -> EgoPanel:  # noqa: A002
@@ -81,7 +83,8 @@ def ego_panel(*, session: Session, person_key: str, slice: Slice, radius: int) -
     person = get_person_label(session=session, key=person_key)
     if person is None:
         raise HTTPException(status_code=404, detail=f"There is no person with the key {person_key}.")
-    key = (str(session.get_bind().url), get_data_version(session=session), slice, person.id, radius)
+    # Keyed by the viewer's visibility too: a panel kept for an editor is never handed to a reader.
+    key = (str(session.get_bind().url), get_data_version(session=session), request_visibility(), slice, person.id, radius)
     with _PANELS_LOCK:
         if key in _PANELS:
             _PANELS.move_to_end(key)
@@ -186,7 +189,7 @@ def ego_api(request: Request, key: str, session: SessionDep, slice: SliceDep, ra
     responses={200: {"content": {"image/svg+xml": {}}}},
 )
 def ego_svg(request: Request, key: str, session: SessionDep, slice: SliceDep, radius: str = _RADIUS) -> Response:  # noqa: A002
-    view = ego_panel(session=session, person_key=key, slice=slice, radius=_radius(radius))
+    view = redact_for(request, ego_panel(session=session, person_key=key, slice=slice, radius=_radius(radius)))
     caption = (f"Ego network of {view.name} ({view.key}), radius {view.radius}. Slice: {view.summary}. "
                f"Attesta, data version {view.data_version}.")  # fmt: skip
     svg = templates.get_template("ego_download.svg").render(

@@ -14,6 +14,7 @@ from sqlalchemy.orm import Session
 from app.network.group_drawing import GroupNeighbourhood, neighbourhood_of_group
 from app.network.slice import Slice, resolve_slice
 from app.store.groups import GroupDetail, GroupList, TermDate, get_group, list_group_kinds, search_groups
+from app.views.redaction import redact_for
 from app.views.common import BadParameter, SessionDep, SliceDep, render
 from app.views.tables import spreadsheet_safe
 
@@ -145,9 +146,10 @@ def group_api(request: Request, key: str, session: SessionDep, slice_: SliceDep)
             "of the term as written and as Gregorian days, first and last day of its attestations, their "
             "dates as written (`|`-separated), counts of attestations and documents, and the source keys. "
             "The same members as on `/groups/{key}`. An unknown key is a 404.")  # fmt: skip
-def group_members_csv(key: str, session: SessionDep) -> Response:
+def group_members_csv(request: Request, key: str, session: SessionDep) -> Response:
     group = get_group(session=session, key=key)
     if group is None:
         raise HTTPException(status_code=404, detail=f"No group has the key '{key}'.")
+    group = redact_for(request, group)
     return Response(members_csv(group), media_type="text/csv; charset=utf-8",
                     headers={"Content-Disposition": f'attachment; filename="{group.key}-members.csv"'})  # fmt: skip

@@ -29,6 +29,7 @@ from app.network.measures.cliques import CLIQUE_LIMIT
 from app.network.measures.communities import METHODS
 from app.network.measures.conventions import population_sentence
 from app.network.measures.results import MeasureError
+from app.auth import CsrfChecked, ReaderActor, request_visibility
 from app.network.jobs import INLINE_UP_TO, Pending, Worker, current_job, needs_worker, outcome_or_job
 from app.network.results import SAMPLED, Outcome, get_or_compute_many, peek_outcome
 from app.network.slice import Slice
@@ -66,6 +67,7 @@ from app.views.network_models import (
     SummaryPage,
 )
 from app.views.slicing import slice_controls
+from app.views.redaction import redact_for
 from app.views.tables import Table, csv_response
 
 __all__ = [
@@ -193,7 +195,8 @@ def centrality_view(
             outcome = found
         if not options and measure in SAMPLED and outcome.payload.get("sampling"):
             # An estimate: the exact figures replace it once stored; on a large slice they are queued at once.
-            exact_stored = peek_outcome(database, measure=measure, slice=slice, options={"exact": True})
+            exact_stored = peek_outcome(database, measure=measure, slice=slice, options={"exact": True},
+                                        visibility=request_visibility())
             if exact_stored is not None:
                 outcome = exact_stored
             elif needs_worker(measure, {"exact": True}, outcome.payload["n"], inline_up_to):
@@ -414,7 +417,8 @@ def _outcome(database: Database, measure: str, slice_: Slice, options: dict[str,
 
 def _outcomes(database: Database, requests: list[tuple[str, dict[str, Any]]], slice_: Slice, recompute: bool = False) -> list[Outcome]:
     try:
-        return get_or_compute_many(database, requests=requests, slice=slice_, recompute=recompute)
+        return get_or_compute_many(database, requests=requests, slice=slice_, recompute=recompute,
+                                   visibility=request_visibility())
     except MeasureError as error:
         raise BadParameter(error.parameter, error.value, error.accepted) from error
 
@@ -430,7 +434,7 @@ def _background(database: Database, worker: Worker | None, measure: str, options
                 requested_by: str, inline_up_to: int) -> Outcome | Pending:
     try:
         return outcome_or_job(database, worker, measure=measure, options=options, slice=slice_,
-                              requested_by=requested_by, inline_up_to=inline_up_to)
+                              requested_by=requested_by, inline_up_to=inline_up_to, visibility=request_visibility())
     except MeasureError as error:
         raise BadParameter(error.parameter, error.value, error.accepted) from error
 
@@ -587,7 +591,7 @@ def _respond(request: Request, view: Any, *, template: str, partial: str, fmt: s
         return render(request, view, template=template, partial=partial)
     if fmt.strip().lower() != "csv":
         raise BadParameter("format", fmt, ["csv"])
-    tables = tables_of(view)
+    tables = tables_of(redact_for(request, view))
     name = table or next(iter(tables))
     if name not in tables:
         raise BadParameter("table", name, list(tables))
@@ -796,7 +800,7 @@ def _recomputed(request: Request, view: str, session: Session, database: Databas
 
 @router.post("/network/{view}/recompute", response_class=RedirectResponse, status_code=303,
              summary="Recompute a measure page", description=_RECOMPUTE + " Answers with a redirect (303) to the page.")  # fmt: skip
-def recompute_page(request: Request, view: str, session: SessionDep, database: DatabaseDep, slice: SliceDep) -> Response:  # noqa: A002
+def recompute_page(request: Request, view: str, _: CsrfChecked, actor: ReaderActor, session: SessionDep, database: DatabaseDep, slice: SliceDep) -> Response:  # noqa: A002
     page = _recomputed(request, view, session, database, slice)
     extra = dict(page.context.parameters)
     return RedirectResponse(urls_for(request).network(view, slice, **extra), status_code=303)
@@ -804,7 +808,7 @@ def recompute_page(request: Request, view: str, session: SessionDep, database: D
 
 @router.post("/api/network/{view}/recompute", summary="Recompute a measure page (JSON)",
              description=_RECOMPUTE + " Answers with the page's JSON, freshly computed.")  # fmt: skip
-def recompute_api(request: Request, view: str, session: SessionDep, database: DatabaseDep, slice: SliceDep) -> Response:  # noqa: A002
+def recompute_api(request: Request, view: str, _: CsrfChecked, actor: ReaderActor, session: SessionDep, database: DatabaseDep, slice: SliceDep) -> Response:  # noqa: A002
     page = _recomputed(request, view, session, database, slice)
     return render(request, page, template=BUILDERS[view][1])
 

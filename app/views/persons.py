@@ -23,6 +23,13 @@ from app.store.persons import (
 from app.store.merging import LinkedPerson, list_person_links
 from app.views.common import BadParameter, SessionDep, SliceDep, page_number, render
 from app.views.ego import ego_panel
+from app.views.redaction import restricted_for
+
+
+def _hidden(request: Request) -> frozenset[int]:
+    """The persons the request's actor may not see (none for editors and admins)."""
+    restricted = restricted_for(request)
+    return restricted.ids if restricted is not None else frozenset()
 
 __all__ = ["PersonPage", "PersonsPage", "person_or_redirect", "person_view", "persons_view", "router"]
 
@@ -67,13 +74,17 @@ class PersonPage:
     """Persons recorded as possibly the same as this one (short of a merge), with the note."""
 
 
-def persons_view(*, session: Session, q: str = "", sort: str | None = None, page: str | None = None) -> PersonsPage:
-    """Return the view-model of the index: best matches first when searching, else by name."""
+def persons_view(*, session: Session, q: str = "", sort: str | None = None, page: str | None = None,
+                 hidden_ids: frozenset[int] = frozenset()) -> PersonsPage:
+    """Return the view-model of the index: best matches first when searching, else by name.
+
+    ``hidden_ids`` are persons the viewer may not see: a search never finds them, the list puts them last.
+    """
     sort = (sort or "").strip().lower() or ("match" if q.strip() else "name")
     if sort not in PERSON_SORTS:
         raise BadParameter("sort", sort, PERSON_SORTS)
     number = page_number(page)
-    result = search_persons(session=session, q=q, sort=sort, page=number)
+    result = search_persons(session=session, q=q, sort=sort, page=number, hidden_ids=hidden_ids)
     if number > result.pages:
         raise BadParameter("page", page, f"a whole number from 1 to {result.pages}")
     return PersonsPage(result=result, sorts=list(PERSON_SORTS))
@@ -151,14 +162,14 @@ _PERSON = (
             description=_INDEX + " An htmx request (header `HX-Request`) gets only the result rows. "
             "The same data in JSON: `/api/persons`.")  # fmt: skip
 def persons_page(request: Request, session: SessionDep, q: str = "", sort: str | None = None, page: str | None = None) -> Response:
-    view = persons_view(session=session, q=q, sort=sort, page=page)
+    view = persons_view(session=session, q=q, sort=sort, page=page, hidden_ids=_hidden(request))
     return render(request, view, template="persons.html", partial="_person_rows.html")
 
 
 @router.get("/api/persons", response_model=PersonsPage, summary="Persons: index and search (JSON)",
             description=_INDEX + " The page with the same data: `/persons`.")  # fmt: skip
 def persons_api(request: Request, session: SessionDep, q: str = "", sort: str | None = None, page: str | None = None) -> Response:
-    view = persons_view(session=session, q=q, sort=sort, page=page)
+    view = persons_view(session=session, q=q, sort=sort, page=page, hidden_ids=_hidden(request))
     return render(request, view, template="persons.html", partial="_person_rows.html")
 
 

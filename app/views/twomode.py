@@ -28,6 +28,7 @@ from app.network.twomode import (
 from app.store.groups import GroupRef, group_refs
 from app.store.persons import PersonRef, person_refs
 from app.views.common import BadParameter, SessionDep, SliceDep, page_number, render
+from app.views.redaction import redact_for
 from app.views.tables import Table, csv_response
 
 __all__ = ["PAGED", "TABLES", "TablePage", "TwoModePage", "two_mode_csv", "two_mode_view", "router"]
@@ -380,6 +381,7 @@ def _respond(request: Request, session: Session, slice_: Slice, weighting: str |
         raise BadParameter("format", fmt, "csv (or no format, for the page)")
     if fmt == "csv":
         text, name = two_mode_csv(session=session, slice_=slice_, table=table, weighting=weighting)
+        text = redact_for(request, text)  # names and keys of restricted persons, cell by cell
         return Response(text, media_type="text/csv; charset=utf-8",
                         headers={"Content-Disposition": f'attachment; filename="{name}"'})  # fmt: skip
     return render(request, two_mode_view(session=session, slice_=slice_, weighting=weighting, pages=pages),

@@ -53,6 +53,52 @@ ROUTES = {
 for view in ("summary", "centrality", "components", "cut-points", "cliques", "communities"):
     ROUTES[("GET", f"/network/{view}")] = (READ, f"/network/{view}")
     ROUTES[("GET", f"/api/network/{view}")] = (READ, f"/api/network/{view}")
+
+EDIT = "editor"
+# Forms, imports, merges and the audit trail are for editors (they show and change personal data);
+# redaction is for admins; exports and the membership page are for readers.
+for method, template, needed, path in [
+    ("GET", "/memberships/{membership_id}", READ, "/memberships/1"),
+    ("GET", "/api/memberships/{membership_id}", READ, "/api/memberships/1"),
+    ("GET", "/export", READ, "/export"), ("GET", "/api/export", READ, "/api/export"),
+    ("GET", "/export/edges.csv", READ, "/export/edges.csv"), ("GET", "/export/nodes.csv", READ, "/export/nodes.csv"),
+    ("GET", "/export/matrix.csv", READ, "/export/matrix.csv"), ("GET", "/export/graphml", READ, "/export/graphml"),
+    ("GET", "/export/sources.json", READ, "/export/sources.json"), ("GET", "/export/workbook.zip", READ, "/export/workbook.zip"),
+    ("GET", "/export/ego.svg", READ, "/export/ego.svg?person=p-jost"), ("GET", "/export/ego.png", READ, "/export/ego.png?person=p-jost"),
+    ("POST", "/export/snapshot", READ, "/export/snapshot"),
+    ("POST", "/audit/{entry_id}/redact", ADMIN, "/audit/1/redact"),
+]:
+    ROUTES[(method, template)] = (needed, path)
+for method, template, path in [
+    ("GET", "/attestations/{key}/delete", "/attestations/att-none/delete"),
+    ("POST", "/attestations/{key}/delete", "/attestations/att-none/delete"),
+    ("GET", "/attestations/{key}/edit", "/attestations/att-none/edit"),
+    ("POST", "/attestations/{key}/edit", "/attestations/att-none/edit"),
+    ("POST", "/attestations/{key}/restore", "/attestations/att-none/restore"),
+    ("GET", "/audit", "/audit"), ("GET", "/audit/{entry_id}", "/audit/1"),
+    ("GET", "/import", "/import"), ("POST", "/import", "/import"), ("GET", "/import/{token}", "/import/nosuch"),
+    ("POST", "/import/{token}/confirm", "/import/nosuch/confirm"), ("POST", "/import/{token}/mapping", "/import/nosuch/mapping"),
+    ("GET", "/import/{token}/mapping.json", "/import/nosuch/mapping.json"),
+    ("GET", "/import/{token}/progress", "/import/nosuch/progress"),
+    ("POST", "/memberships/{membership_id}/attestations", "/memberships/1/attestations"),
+    ("GET", "/memberships/{membership_id}/edit", "/memberships/1/edit"),
+    ("POST", "/memberships/{membership_id}/edit", "/memberships/1/edit"),
+    ("GET", "/merge", "/merge"), ("POST", "/merge", "/merge"),
+    ("GET", "/new/membership", "/new/membership"), ("POST", "/new/membership", "/new/membership"),
+    ("GET", "/new/person", "/new/person"), ("POST", "/new/person", "/new/person"),
+    ("GET", "/new/relation", "/new/relation"), ("POST", "/new/relation", "/new/relation"),
+    ("GET", "/new/source", "/new/source"), ("POST", "/new/source", "/new/source"),
+    ("POST", "/person-links/{link_id}/delete", "/person-links/999/delete"),
+    ("GET", "/persons/{key}/edit", "/persons/p-jost/edit"), ("POST", "/persons/{key}/edit", "/persons/p-jost/edit"),
+    ("POST", "/persons/{key}/links", "/persons/p-jost/links"),
+    ("GET", "/persons/{key}/split", "/persons/p-jost/split"), ("POST", "/persons/{key}/split", "/persons/p-jost/split"),
+    ("POST", "/relations/{relation_id}/attestations", "/relations/1/attestations"),
+    ("GET", "/sources/{key}/edit", "/sources/s-1/edit"), ("POST", "/sources/{key}/edit", "/sources/s-1/edit"),
+]:
+    ROUTES[(method, template)] = (EDIT, path)
+    if (method == "GET" or template.startswith("/import")) and not template.endswith("mapping.json"):
+        api = "/api" + template
+        ROUTES.setdefault((method, api), (EDIT, "/api" + path))
 LEVEL = {"anonymous": -1, "reader": 0, "editor": 1, "admin": 2}
 NEEDED = {OPEN: -1, READ: 0, "editor": 1, ADMIN: 2}
 

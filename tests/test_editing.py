@@ -352,22 +352,20 @@ def test_a_write_without_the_csrf_token_is_refused_and_changes_nothing(client, d
 
 @pytest.mark.parametrize("role, status", [("reader", 403), ("editor", 303)])
 def test_writes_need_the_editor_role(client, database, role, status):
-    from app.auth import Actor, current_actor
+    from tests.accounts_world import ROLE_USERS, add_role_users, sign_in
 
-    client.app.dependency_overrides[current_actor] = lambda: Actor(name=f"a-{role}", role=role, user_id=None)
-    try:
-        csrf = token(client, "/persons/P1")  # every page carries the token, a reader's too
-        before = counts(database)
-        answer = client.post("/new/person", data={"csrf_token": csrf, "key": "P9", "name": "Nine"}, follow_redirects=False)
-        assert answer.status_code == status
-        assert (counts(database) == before) is (role == "reader")
-        assert client.get("/audit").status_code == (403 if role == "reader" else 200)
-        assert client.get("/new/person").status_code == (403 if role == "reader" else 200)
-        # redaction is for admins only, editors included among those refused
-        entry_id = client.get("/api/audit").json()["changes"]["rows"][0]["id"] if role == "editor" else 1
-        refused = client.post(f"/audit/{entry_id}/redact", data={"csrf_token": csrf, "reason": "x"}, follow_redirects=False)
-        assert refused.status_code == 403
-        if role == "editor":
-            assert audit_of(database, "person", "P9")[0].actor == "a-editor"
-    finally:
-        client.app.dependency_overrides.clear()
+    add_role_users(database)  # once a user exists, the instance has no local user: everyone signs in
+    assert sign_in(client, ROLE_USERS[role]).status_code == 303
+    csrf = token(client, "/persons/P1")  # every page carries the token, a reader's too
+    before = counts(database)
+    answer = client.post("/new/person", data={"csrf_token": csrf, "key": "P9", "name": "Nine"}, follow_redirects=False)
+    assert answer.status_code == status
+    assert (counts(database) == before) is (role == "reader")
+    assert client.get("/audit").status_code == (403 if role == "reader" else 200)
+    assert client.get("/new/person").status_code == (403 if role == "reader" else 200)
+    # redaction is for admins only, editors included among those refused
+    entry_id = client.get("/api/audit").json()["changes"]["rows"][0]["id"] if role == "editor" else 1
+    refused = client.post(f"/audit/{entry_id}/redact", data={"csrf_token": csrf, "reason": "x"}, follow_redirects=False)
+    assert refused.status_code == 403
+    if role == "editor":
+        assert audit_of(database, "person", "P9")[0].actor == ROLE_USERS["editor"]

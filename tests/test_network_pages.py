@@ -572,3 +572,19 @@ def test_the_readme_lists_the_measure_pages():
     for path in ("/network/summary", "/network/centrality", "/network/components", "/network/cut-points",
                  "/network/cliques", "/network/communities", "/persons/{key}/measures"):
         assert f"`{path}" in readme, path
+
+
+def test_every_measure_page_warns_on_a_small_slice(florentine):
+    # 15 families and 20 marriages (Padgett & Ansell 1993, as shipped with networkx) are below the
+    # small-slice limits of 30 persons and 50 ties (common practice, not a published threshold).
+    client, _database, _tmp_path = florentine
+    for view in ("centrality", "components", "cut-points", "cliques", "communities"):
+        page = BeautifulSoup(client.get(f"/network/{view}", params={"direction": "undirected"}).text, "html.parser")
+        note = page.select_one(".small-slice-note")
+        assert note is not None, view
+        assert "Only 15 persons and 20 ties" in note.get_text(), (view, note.get_text())
+        assert client.get(f"/api/network/{view}", params={"direction": "undirected"}).json()["context"]["small_note"]
+    # the summary lists the same warning among its own, once
+    summary = BeautifulSoup(client.get("/network/summary", params={"direction": "undirected"}).text, "html.parser")
+    assert summary.select_one(".small-slice-note") is None
+    assert "Only 15 persons and 20 ties" in summary.get_text()

@@ -27,6 +27,7 @@ from typing import Any
 from urllib.parse import urlencode
 
 import networkx as nx
+import numpy as np
 from sqlalchemy.orm import Session
 
 from app.db import Database
@@ -289,6 +290,13 @@ class SliceGraph:
 
 def compute_result(session: Session, graph: SliceGraph, *, measure: str, options: dict[str, Any]) -> dict[str, Any]:
     """Return the result of one measure on the slice's graph, as JSON data with persons by key."""
+    payload = _compute(session, graph, measure=measure, options=options)
+    arcs = graph.arcs
+    payload.setdefault("ties", int(np.count_nonzero(arcs.source != arcs.target)))  # for the small-slice warning
+    return payload
+
+
+def _compute(session: Session, graph: SliceGraph, *, measure: str, options: dict[str, Any]) -> dict[str, Any]:
     slice_, key_of = graph.slice, graph.key_of
     if measure == "summary":
         return _with_mode(_summary(session, graph), slice_)

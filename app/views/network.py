@@ -32,6 +32,7 @@ from app.network.measures.results import MeasureError
 from app.auth import CsrfChecked, ReaderActor, request_visibility
 from app.network.jobs import INLINE_UP_TO, Pending, Worker, current_job, needs_worker, outcome_or_job
 from app.network.results import SAMPLED, Outcome, get_or_compute_many, peek_outcome
+from app.network.measures.summary import small_slice_warning
 from app.network.slice import Slice
 from app.store.jobs import JobInfo
 from app.store.network_labels import get_person_label, list_person_labels_by_key
@@ -473,6 +474,8 @@ def _context(session: Session, view: str, slice_: Slice, outcome: Outcome, param
         view=view, title=PAGE_INFO[view].label, definition=PAGE_INFO[view], slice_summary=slice_.describe(),
         population=mode_population(population_sentence(n, slice_.nodes), slice_), n=n,
         empty_note=EMPTY_NOTE if n == 0 else None,
+        small_note=(small_slice_warning(n, outcome.payload["ties"])
+                    if n and view != "summary" and "ties" in outcome.payload else None),  # the summary lists its own warnings
         mode_note=mode_conventions(slice_),
         freshness=_freshness(outcome), parameters=parameters, tables=tables, controls=slice_controls(session=session, slice=slice_),
     )  # fmt: skip

@@ -90,6 +90,8 @@ class PageContext:
     """Number of persons in the slice's graph (the n of every normalization)."""
     empty_note: str | None
     """A sentence when the slice holds no person, else None."""
+    small_note: str | None
+    """A warning when the slice has so few persons or ties that its measures say little (else None)."""
     mode_note: str | None
     """Under mode=co-membership or both: what the ties are, how weights combine, which node set (else None)."""
     freshness: Freshness

@@ -7,6 +7,7 @@ The graph code works on integer ids; these queries turn ids back into what a rea
 
 from __future__ import annotations
 
+from collections import Counter
 from collections.abc import Iterable
 from dataclasses import dataclass
 
@@ -105,11 +106,9 @@ def list_person_labels(*, session: Session, ids: Iterable[int]) -> dict[int, Per
     wanted = sorted(set(ids))
     found: dict[int, PersonLabel] = {}
     for start in range(0, len(wanted), 500):  # stays under SQLite's limit of bound parameters
-        query = select(Person.id, Person.key, Person.name, Person.kind, Person.unidentified).where(
-            Person.id.in_(wanted[start : start + 500])
-        )
-        found.update((row.id, PersonLabel(*row)) for row in session.execute(query))
-    return found
+        query = select(*_LABEL_COLUMNS).where(Person.id.in_(wanted[start : start + 500]))
+        found.update((row.id, row) for row in session.execute(query))
+    return _told_apart(found)
 
 
 def list_person_labels_by_key(*, session: Session, keys: Iterable[str]) -> dict[str, PersonLabel]:
@@ -117,11 +116,33 @@ def list_person_labels_by_key(*, session: Session, keys: Iterable[str]) -> dict[
     wanted = sorted(set(keys))
     found: dict[str, PersonLabel] = {}
     for start in range(0, len(wanted), 500):  # stays under SQLite's limit of bound parameters
-        query = select(Person.id, Person.key, Person.name, Person.kind, Person.unidentified).where(
-            Person.key.in_(wanted[start : start + 500])
-        )
-        found.update((row.key, PersonLabel(*row)) for row in session.execute(query))
-    return found
+        query = select(*_LABEL_COLUMNS).where(Person.key.in_(wanted[start : start + 500]))
+        found.update((row.key, row) for row in session.execute(query))
+    return _told_apart(found)
+
+
+_LABEL_COLUMNS = (Person.id, Person.key, Person.name, Person.kind, Person.unidentified, Person.born_text, Person.died_text)
+
+
+def _told_apart(rows: dict) -> dict:
+    """Return labels in which persons of the same name are told apart by their life dates (or keys).
+
+    A table or drawing of several "Pieter Schuttelaer"s would otherwise let a reader take two
+    persons for one; a name shared within the same set of labels gets "(born–died)", and where
+    even those agree, the key.
+    """
+    names = Counter(row.name for row in rows.values())
+    labels = {}
+    for ident, row in rows.items():
+        name = row.name
+        if names[row.name] > 1:
+            name = f"{row.name} ({row.born_text or '?'}–{row.died_text or '?'})"
+        labels[ident] = (name, row)
+    shown = Counter(name for name, _row in labels.values())
+    return {
+        ident: PersonLabel(row.id, row.key, f"{name[:-1]}, {row.key})" if shown[name] > 1 else name, row.kind, row.unidentified)
+        for ident, (name, row) in labels.items()
+    }
 
 
 def list_collection_names(*, session: Session, ids: Iterable[int]) -> dict[int, str]:

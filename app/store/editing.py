@@ -427,6 +427,16 @@ def _source_fields(problems: dict[str, str], *, reference: str, kind: str, title
     }
 
 
+def _checked_source(session: Session, actor: Actor, problems: dict[str, str], *, holder: dict[str, str],
+                    **fields: str) -> tuple[dict[str, Any], dict[str, str]]:
+    """Check a source form's fields and its repository/collection choice; return the values and the choice."""
+    values = _source_fields(problems, **fields)
+    _holder(session, actor, problems, create=False, **holder)
+    if not values["reference"] and not values["title"]:
+        problems["reference"] = "give a shelfmark (archival source) or a title (printed source)"
+    return values, holder
+
+
 def create_source(*, session: Session, actor: Actor, key: str, repository: str = "", new_repository_key: str = "",
                   new_repository_name: str = "", collection: str = "", new_collection_key: str = "",
                   new_collection_name: str = "", reference: str = "", kind: str = "", title: str = "", author: str = "",
@@ -437,13 +447,11 @@ def create_source(*, session: Session, actor: Actor, key: str, repository: str =
     key = _check_key(problems, "key", key)
     if key and "key" not in problems and session.scalar(select(Source.id).where(Source.key == key)):
         problems["key"] = f"a source {key!r} exists already"
-    values = _source_fields(problems, reference=reference, kind=kind, title=title, author=author, publisher=publisher,
-                            year=year, pages=pages, date_text=date, calendar=calendar, url=url, note=note)
-    holder = dict(repository=repository, new_repository_key=new_repository_key, new_repository_name=new_repository_name,
-                  collection=collection, new_collection_key=new_collection_key, new_collection_name=new_collection_name)
-    _holder(session, actor, problems, create=False, **holder)
-    if not values["reference"] and not values["title"]:
-        problems["reference"] = "give a shelfmark (archival source) or a title (printed source)"
+    values, holder = _checked_source(
+        session, actor, problems, reference=reference, kind=kind, title=title, author=author, publisher=publisher,
+        year=year, pages=pages, date_text=date, calendar=calendar, url=url, note=note,
+        holder=dict(repository=repository, new_repository_key=new_repository_key, new_repository_name=new_repository_name,
+                    collection=collection, new_collection_key=new_collection_key, new_collection_name=new_collection_name))
     _raise(problems)
     collection_id = _holder(session, actor, problems, create=True, **holder)
     source = Source(key=key, collection_id=collection_id, version=1, **values)
@@ -465,13 +473,11 @@ def update_source(*, session: Session, actor: Actor, key: str, version: str | in
     before = source_snapshot(session, source)
     _check_version(session, table="source", key=key, stored=source.version, loaded=version, now=before)
     problems: dict[str, str] = {}
-    values = _source_fields(problems, reference=reference, kind=kind, title=title, author=author, publisher=publisher,
-                            year=year, pages=pages, date_text=date, calendar=calendar, url=url, note=note)
-    holder = dict(repository=repository, new_repository_key=new_repository_key, new_repository_name=new_repository_name,
-                  collection=collection, new_collection_key=new_collection_key, new_collection_name=new_collection_name)
-    _holder(session, actor, problems, create=False, **holder)
-    if not values["reference"] and not values["title"]:
-        problems["reference"] = "give a shelfmark (archival source) or a title (printed source)"
+    values, holder = _checked_source(
+        session, actor, problems, reference=reference, kind=kind, title=title, author=author, publisher=publisher,
+        year=year, pages=pages, date_text=date, calendar=calendar, url=url, note=note,
+        holder=dict(repository=repository, new_repository_key=new_repository_key, new_repository_name=new_repository_name,
+                    collection=collection, new_collection_key=new_collection_key, new_collection_name=new_collection_name))
     own_dates = session.execute(select(Attestation.id, Attestation.date_text).where(
         Attestation.source_id == source.id, Attestation.date_text.is_not(None), Attestation.calendar.is_(None))).all()
     redated = {}

@@ -9,7 +9,7 @@ strongest alters up to a cap, and says how many it left out.
 from __future__ import annotations
 
 from collections import defaultdict
-from collections.abc import Iterable
+from collections.abc import Iterable, Sequence
 from dataclasses import dataclass, field
 
 from sqlalchemy.orm import Session
@@ -133,22 +133,27 @@ def ego_network(
         raise ValueError(f"radius must be 1 or 2, not {radius}")
     cap = DEFAULT_MAX_ALTERS[radius] if max_alters is None else max_alters
     direction, weight = resolved.slice.direction, resolved.slice.weight
-    def totals(persons: Iterable[int]) -> dict[int, list[float]]:
-        """Return the strength of each person's ties to ``persons``: [weight, documents, attestations]."""
+    def totals(persons: Iterable[int]) -> dict[int, Sequence[float]]:
+        """Return the strength of each person's ties to ``persons``: (weight, documents, attestations)."""
         persons = sorted(persons)
         if direction == "reciprocal":  # whether a tie counts depends on the other direction: per relation
             found: list[RelationTotal] = []
             for start in range(0, len(persons), 400):  # chunks stay under SQLite's limit of bound parameters
                 found += relation_totals(session, resolved, persons=persons[start : start + 400])
             return _strength_to(_strengths(found, direction, weight), set(persons))
-        strength: dict[int, list[float]] = {}
+        strength: dict[int, Sequence[float]] = {}  # tuples: a hub's thousands of alters make no lists for the collector
         for start in range(0, len(persons), 200):
             for row in neighbour_totals(session, resolved, persons=persons[start : start + 200]):
-                found = [_summed_weight(row, weight), row.documents, row.attestations]
-                if row.person in strength:  # met again from another chunk of persons
-                    found = [x + y for x, y in zip(strength[row.person], found)]
-                strength[row.person] = found
+                earlier = strength.get(row.person)  # met again from another chunk of persons
+                w, d, a = _summed_weight(row, weight), row.documents, row.attestations
+                strength[row.person] = (w, d, a) if earlier is None else (earlier[0] + w, earlier[1] + d, earlier[2] + a)
         return strength
+
+    def tied_to(persons: Iterable[int]) -> set[int]:
+        """Return the persons tied to ``persons`` in the slice, without the strength of the ties."""
+        persons = sorted(persons)
+        return {row.person for start in range(0, len(persons), 200)
+                for row in neighbour_totals(session, resolved, persons=persons[start : start + 200], counts=False)}  # fmt: skip
 
     # Alters are chosen on sums made by the database; evidence rows are read only for the drawn.
     first = totals([ego_id])
@@ -157,9 +162,13 @@ def ego_network(
     kept_second: set[int] = set()
     left_out = {1: len(found_first) - len(kept_first)}
     if radius == 2:
-        second = totals(kept_first)
-        found_second = set(second) - found_first - {ego_id}
-        kept_second = _strongest(session, second, found_second, max(cap - len(kept_first), 0))
+        room = max(cap - len(kept_first), 0)
+        if room == 0 and direction != "reciprocal":  # none can be drawn: who they are is enough, not how strong
+            found_second = tied_to(kept_first) - found_first - {ego_id}
+        else:
+            second = totals(kept_first)
+            found_second = set(second) - found_first - {ego_id}
+            kept_second = _strongest(session, second, found_second, room)
         left_out[2] = len(found_second) - len(kept_second)
 
     drawn = {ego_id} | kept_first | kept_second
@@ -267,7 +276,7 @@ def _summed_weight(row: NeighbourTotal, weight: str) -> float:
     return tie_weight(row.attestations, row.documents, weight)
 
 
-def _strongest(session: Session, strength: dict[int, list[float]], candidates: set[int], cap: int) -> set[int]:
+def _strongest(session: Session, strength: dict[int, Sequence[float]], candidates: set[int], cap: int) -> set[int]:
     """Return at most ``cap`` candidates, those with the strongest ties first.
 
     Strength is (summed weight, documents, attestations); equal strengths at the cut are
@@ -277,7 +286,7 @@ def _strongest(session: Session, strength: dict[int, list[float]], candidates: s
         return set(candidates)
     if cap == 0:
         return set()
-    ranked = sorted(candidates, key=lambda p: [-x for x in strength[p]])
+    ranked = sorted(candidates, key=strength.__getitem__, reverse=True)  # stable, as an ascending sort of negated keys
     boundary = strength[ranked[cap - 1]]
     kept = {p for p in ranked[:cap] if strength[p] != boundary}
     tied = [p for p in candidates if strength[p] == boundary]

@@ -17,7 +17,7 @@ from datetime import date
 from typing import Any, NamedTuple
 
 import networkx as nx
-from sqlalchemy import ColumnElement, and_, case, func, or_, select
+from sqlalchemy import ColumnElement, and_, case, func, literal, or_, select
 from sqlalchemy.orm import Session, aliased
 
 from app.dates import DateError, parse_interval
@@ -39,6 +39,7 @@ __all__ = [
     "arc_counts",
     "graph_from_totals",
     "node_set",
+    "needs_sources",
     "neighbour_totals",
     "relation_evidence",
     "relation_totals",
@@ -347,16 +348,30 @@ def attestation_conditions(resolved: ResolvedSlice, source: Any = Source, collec
     return conditions
 
 
-def _evidence_query(resolved: ResolvedSlice, columns: list[Any], persons: Iterable[int] | None, both_ends: bool) -> Any:
-    """Return the SELECT of relation attestations kept by the slice, with the given columns."""
+def needs_sources(resolved: ResolvedSlice) -> bool:
+    """Return True when the slice filters attestations by their source (collection, repository)."""
+    return bool(resolved.keep_collection_ids or resolved.omit_collection_ids or resolved.keep_repository_ids
+                or resolved.omit_repository_ids or resolved.slice.min_collections > 1)  # fmt: skip
+
+
+def _evidence_query(
+    resolved: ResolvedSlice, columns: list[Any], persons: Iterable[int] | None, both_ends: bool, *, sources: bool = True
+) -> Any:
+    """Return the SELECT of relation attestations kept by the slice, with the given columns.
+
+    ``sources=False`` leaves the source out when neither the columns nor the slice need it:
+    counting a hub's alters' ties then reads the attestations' index alone.
+    """
     s = resolved.slice
     person_a, person_b = aliased(Person), aliased(Person)
     query = (
         select(*columns)
+        .select_from(Attestation)
         .join(Relation, Attestation.relation_id == Relation.id)
-        .join(Source, Attestation.source_id == Source.id)
         .where(*attestation_conditions(resolved))
     )
+    if sources or needs_sources(resolved):
+        query = query.join(Source, Attestation.source_id == Source.id)
     if resolved.keep_repository_ids or resolved.omit_repository_ids:  # the only conditions on collection
         query = query.outerjoin(Collection, Source.collection_id == Collection.id)
     if resolved.kind_ids is not None:
@@ -438,27 +453,33 @@ class NeighbourTotal(NamedTuple):
     documents: int  # each relation's distinct documents, summed over the relations
 
 
-def neighbour_totals(session: Session, resolved: ResolvedSlice, *, persons: Iterable[int]) -> list[NeighbourTotal]:
+def neighbour_totals(
+    session: Session, resolved: ResolvedSlice, *, persons: Iterable[int], counts: bool = True
+) -> list[NeighbourTotal]:
     """Return every person tied to one of ``persons`` (either way) with the sums of those ties.
 
     Each relation between the person and one of ``persons`` counts once, with its attestations
     and distinct documents in the slice, as ``relation_totals`` counts them; the sums are made
     by the database (grouped by the other person), so a set of hubs with 90,000 relations costs
     one row per neighbour. ``persons`` themselves may appear too (tied to each other or to
-    themselves, counted for one end only); callers leave them out.
+    themselves, counted for one end only); callers leave them out. With ``counts=False`` only
+    the persons and their numbers of relations are wanted: attestations and documents are 0,
+    and the sources are not read unless the slice filters on them.
     """
     ids = sorted(set(persons))
     document = func.coalesce(Source.copy_of_id, Source.id)
-    columns = [Relation.person_a_id.label("a"), Relation.person_b_id.label("b"),
-               func.count(Attestation.id).label("attestations"), func.count(document.distinct()).label("documents")]
-    per_relation = _evidence_query(resolved, columns, ids, False).group_by(Relation.id)
+    columns = [Relation.person_a_id.label("a"), Relation.person_b_id.label("b")]
+    if counts:
+        columns += [func.count(Attestation.id).label("attestations"), func.count(document.distinct()).label("documents")]
+    per_relation = _evidence_query(resolved, columns, ids, False, sources=counts).group_by(Relation.id)
     if resolved.slice.min_collections > 1:
         per_relation = per_relation.having(func.count(Source.collection_id.distinct()) >= resolved.slice.min_collections)
     r = per_relation.subquery()
     # One pass over the relations (a UNION of two selects would count them twice): a relation
     # between two of ``persons`` is counted for one of its ends only, and callers leave those out.
     other = case((r.c.a.in_(ids), r.c.b), else_=r.c.a).label("other")
-    query = select(other, func.count(), func.sum(r.c.attestations), func.sum(r.c.documents)).group_by(other)
+    sums = [func.sum(r.c.attestations), func.sum(r.c.documents)] if counts else [literal(0), literal(0)]
+    query = select(other, func.count(), *sums).group_by(other)
     return [NeighbourTotal(*row) for row in session.connection().execute(query).all()]
 
 

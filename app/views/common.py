@@ -7,17 +7,17 @@ page otherwise. The page and its JSON twin therefore always show the same figure
 
 from __future__ import annotations
 
-import dataclasses
 import json
+import re
 from collections.abc import Iterable, Iterator
 from dataclasses import dataclass
-from datetime import date, datetime
 from pathlib import Path
 from typing import Annotated, Any
 from urllib.parse import quote, urlencode
 
+import orjson
 from fastapi import Depends, HTTPException, Request
-from fastapi.responses import HTMLResponse, JSONResponse, Response
+from fastapi.responses import HTMLResponse, Response
 from jinja2 import Environment, FileSystemLoader, StrictUndefined
 from sqlalchemy.exc import SQLAlchemyError
 from sqlalchemy.orm import Session
@@ -42,7 +42,7 @@ __all__ = [
     "render",
     "render_error",
     "templates",
-    "to_json",
+    "json_bytes",
     "urls_for",
 ]
 
@@ -89,6 +89,8 @@ class Urls:
 
     def __init__(self, root: str = ""):
         self.root = root.rstrip("/")  # where the app is mounted, "" at the top of the site
+        # The query string of each slice, written once: a hub's drawing links thousands of ties.
+        self._slice_queries: dict[Slice, tuple[list[tuple[str, str]], str]] = {}
 
     def home(self) -> str:
         return self._path("/")
@@ -257,14 +259,25 @@ class Urls:
         return self._path(f"/api/{path.lstrip('/')}")
 
     def _path(self, path: str, slice: Slice | None = None, **query: str | None) -> str:
-        pairs = list(slice.to_query()) if slice is not None else []
-        pairs += [(name, str(value)) for name, value in query.items() if value is not None]
-        return self.root + path + (f"?{urlencode(pairs)}" if pairs else "")
+        pairs, encoded = [], ""
+        if slice is not None:
+            if slice not in self._slice_queries:
+                found = slice.to_query()
+                self._slice_queries[slice] = (found, urlencode(found))
+            pairs, encoded = self._slice_queries[slice]
+        extra = [(name, str(value)) for name, value in query.items() if value is not None]
+        if extra:
+            encoded = urlencode(pairs + extra)
+        return self.root + path + (f"?{encoded}" if encoded else "")
+
+
+_PLAIN_SEGMENT = re.compile(r"[A-Za-z0-9._~:-]*")  # what ``quote(key, safe=":")`` leaves as it is
 
 
 def _seg(key: str) -> str:
     """Quote a key for use as one path segment (keys hold only letters, digits and ._:-)."""
-    return quote(str(key), safe=":")
+    key = str(key)
+    return key if _PLAIN_SEGMENT.fullmatch(key) else quote(key, safe=":")
 
 
 def urls_for(request: Request) -> Urls:
@@ -337,18 +350,19 @@ def wants_partial(request: Request) -> bool:
     )
 
 
-def to_json(view: Any) -> Any:
-    """Return a view-model as plain JSON data: dataclasses as objects, dates as ISO strings."""
-    if dataclasses.is_dataclass(view) and not isinstance(view, type):
-        # Field by field: dataclasses.asdict would deep-copy everything first, twice the work.
-        return {f.name: to_json(getattr(view, f.name)) for f in dataclasses.fields(view)}
-    if isinstance(view, dict):
-        return {str(name): to_json(value) for name, value in view.items()}
-    if isinstance(view, (list, tuple, set, frozenset)):
-        return [to_json(value) for value in view]
-    if isinstance(view, (date, datetime)):
-        return view.isoformat()
-    return view
+def json_bytes(view: Any) -> bytes:
+    """Return a view-model as JSON: dataclasses as objects, dates as ISO strings, sets as lists.
+
+    orjson walks dataclasses, dates and tuples natively, in C: a hub's ego network (thousands
+    of ties, each drawn) is written in a few milliseconds instead of a few hundred.
+    """
+    return orjson.dumps(view, default=_json_default, option=orjson.OPT_NON_STR_KEYS)
+
+
+def _json_default(value: Any) -> Any:
+    if isinstance(value, (set, frozenset)):
+        return list(value)
+    raise TypeError(f"cannot write {type(value).__name__} as JSON")
 
 
 def render(
@@ -369,7 +383,7 @@ def render(
 
     view = redact_for(request, view)  # after every cache: a reader never sees a restricted person
     if is_api_request(request):
-        return JSONResponse(to_json(view), status_code=status_code, headers=headers)
+        return Response(json_bytes(view), status_code=status_code, headers=headers, media_type="application/json")
     context = {"page": view, "urls": urls_for(request), "csrf_token": csrf_token(request),
                "actor": current_actor(request)}
     if partial is not None and wants_partial(request):

@@ -184,7 +184,7 @@ def ego_drawing(network: EgoNetwork, kinds: list[KindLabel], *, weight: str = "d
     edges: list[DrawnEdge] = []
     pairs: dict[tuple[str, str], list[EgoEdge]] = defaultdict(list)
     for edge in network.edges:
-        pairs[tuple(sorted((edge.source, edge.target)))].append(edge)
+        pairs[(edge.source, edge.target) if edge.source <= edge.target else (edge.target, edge.source)].append(edge)
     order = {key: i for i, key in enumerate(styles)}
     for (a, b), group in sorted(pairs.items()):
         group.sort(key=lambda e: (e.co_membership, order.get(e.kind, 0), e.source))

@@ -173,7 +173,8 @@ def ego_network(
 
     drawn = {ego_id} | kept_first | kept_second
     labels = list_person_labels(session=session, ids=drawn)
-    inside = slice_totals(session, resolved, persons=sorted(drawn), both_ends=True)
+    # As recorded, a tie is one relation (one per kind and ordered pair): its documents need no list.
+    inside = slice_totals(session, resolved, persons=sorted(drawn), both_ends=True, document_lists=direction != "recorded")
     kinds = {k.id: k for k in list_relation_kinds(session=session)}
     edges = [_edge(tie, labels, kinds, weight) for tie in _ties(inside, direction).values()]
     edges.sort(key=lambda e: (e.source, e.target, e.kind))
@@ -201,6 +202,8 @@ class _Tie:
 
     @property
     def attestations(self) -> int:
+        if len(self.relations) == 1:
+            return self.relations[0].attestations
         return sum(r.attestations for r in self.relations)  # an attestation belongs to one relation
 
     @property
@@ -300,7 +303,8 @@ def _edge(tie: _Tie, labels: dict[int, PersonLabel], kinds: dict[int, KindLabel]
         source=labels[tie.person_a].key, target=labels[tie.person_b].key, source_name=labels[tie.person_a].name,
         target_name=labels[tie.person_b].name, kind=kinds[tie.kind_id].key,
         kind_label=kinds[tie.kind_id].label, directed=tie.directed, attestations=attestations, documents=documents,
-        weight=tie_weight(attestations, documents, weight), relation_ids=sorted(r.relation_id for r in tie.relations),
+        weight=tie_weight(attestations, documents, weight),
+        relation_ids=[tie.relations[0].relation_id] if len(tie.relations) == 1 else sorted(r.relation_id for r in tie.relations),
     )  # fmt: skip
 
 

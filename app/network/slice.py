@@ -497,19 +497,21 @@ class SliceTotal(NamedTuple):
 
 
 def slice_totals(
-    session: Session, resolved: ResolvedSlice, *, persons: Iterable[int] | None = None, both_ends: bool = False
+    session: Session, resolved: ResolvedSlice, *, persons: Iterable[int] | None = None, both_ends: bool = False,
+    document_lists: bool = True,
 ) -> list[SliceTotal]:
     """Return every relation the slice keeps with its counts, one row per relation.
 
     The measure pages build their graph from these (see ``graph_from_totals``): on a slice of
     200,000 attestations reading one row per relation instead of one per attestation saves
     seconds, and attestation ids are fetched later only where a page shows them. ``persons``
-    and ``both_ends`` narrow the relations as in ``relation_evidence``.
+    and ``both_ends`` narrow the relations as in ``relation_evidence``. ``document_lists=False``
+    leaves ``document_list`` empty, for callers whose ties never join two relations.
     """
     document = func.coalesce(Source.copy_of_id, Source.id)
     columns = [
         Relation.id, Relation.kind_id, Relation.kind_directed, Relation.person_a_id, Relation.person_b_id,
-        func.count(Attestation.id), func.count(document.distinct()), distinct_list(document),
+        func.count(Attestation.id), func.count(document.distinct()), distinct_list(document) if document_lists else literal(""),
     ]
     query = _evidence_query(resolved, columns, persons, both_ends).group_by(Relation.id)
     if resolved.slice.min_collections > 1:

@@ -566,6 +566,11 @@ def get_person(
     person = session.scalar(select(Person).where(Person.key == key))
     if person is None:
         return None
+    rows = _relation_rows(session, person.id)
+    # The relation rows give the degree and the relations' share of the attestations (a self-loop's once),
+    # as degree_counts and attestation_counts count them, without reading a hub's relations twice more.
+    degree = len({b if a == person.id else a for _, _, a, b, *_ in rows if a != b})
+    attested = sum(row[4] for row in rows) + _membership_and_fact_attestations(session, person.id)
     return PersonDetail(
         key=person.key, name=person.name, sort_name=person.sort_name, kind=person.kind,
         unidentified=person.unidentified, living=person.living, note=person.note,
@@ -573,11 +578,10 @@ def get_person(
         born=_life_date(person.born_text, person.calendar, person.born_earliest, person.born_latest),
         died=_life_date(person.died_text, person.calendar, person.died_earliest, person.died_latest),
         identifiers=[Identifier(scheme=i.scheme, value=i.value, url=identifier_url(i.scheme, i.value)) for i in person.identifiers],
-        attestations=attestation_counts(session=session, person_ids=[person.id]).get(person.id, 0),
-        degree=degree_counts(session=session, person_ids=[person.id]).get(person.id, 0),
+        attestations=attested, degree=degree,
         memberships=_memberships(session, person.id),
         facts=_facts(session, person.id),
-        relations=_relations(session, person, in_slice, relation_limit),
+        relations=_relations(session, person, rows, in_slice, relation_limit),
     )  # fmt: skip
 
 
@@ -639,16 +643,30 @@ def _facts(session: Session, pid: int) -> list[PersonFactRow]:
 FACT_ORDER = {kind: n for n, kind in enumerate(("birth", "death", "gender", "title", "occupation", "residence", "other"))}
 
 
+def _relation_rows(session: Session, pid: int) -> list:
+    """Return each relation of the person with a live attestation: id, kind, ends, attestations, days, best grade."""
+    columns = (Relation.id, Relation.kind_id, Relation.person_a_id, Relation.person_b_id,
+               func.count(Attestation.id), _first_day(), _last_day(), func.min(CERTAINTY_RANK))  # fmt: skip
+    # The relations are found first, from either end, and then read in order of id: SQLite then
+    # groups them as it goes (an OR of the two ends would sort a hub's thousands of groups).
+    ids = select(Relation.id).where(Relation.person_a_id == pid).union_all(select(Relation.id).where(Relation.person_b_id == pid))
+    return list(session.execute(
+        select(*columns).join(Attestation, Attestation.relation_id == Relation.id)
+        .where(Relation.id.in_(ids), _LIVE).group_by(Relation.id)
+    ).all())  # fmt: skip
+
+
+def _membership_and_fact_attestations(session: Session, pid: int) -> int:
+    """Return the live attestations of the person's memberships and facts."""
+    memberships = select(func.count(Attestation.id)).join(Membership, Attestation.membership_id == Membership.id)
+    facts = select(func.count(Attestation.id)).join(PersonFact, Attestation.fact_id == PersonFact.id)
+    return (session.scalar(memberships.where(Membership.person_id == pid, _LIVE)) or 0) + (
+        session.scalar(facts.where(PersonFact.person_id == pid, _LIVE)) or 0)  # fmt: skip
+
+
 def _relations(
-    session: Session, person: Person, in_slice: Mapping[int, int] | None, limit: int | None
+    session: Session, person: Person, rows: list, in_slice: Mapping[int, int] | None, limit: int | None
 ) -> list[RelationKindGroup]:
-    rows = session.execute(
-        select(Relation.id, Relation.kind_id, Relation.person_a_id, Relation.person_b_id,
-               func.count(Attestation.id), _first_day(), _last_day(), func.min(CERTAINTY_RANK))
-        .join(Attestation, Attestation.relation_id == Relation.id)
-        .where(or_(Relation.person_a_id == person.id, Relation.person_b_id == person.id), _LIVE)
-        .group_by(Relation.id)
-    ).all()  # fmt: skip
     if not rows:
         return []
     by_kind: dict[int, list] = defaultdict(list)

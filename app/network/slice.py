@@ -17,7 +17,7 @@ from datetime import date
 from typing import Any, NamedTuple
 
 import networkx as nx
-from sqlalchemy import ColumnElement, and_, case, func, literal, or_, select
+from sqlalchemy import ColumnElement, and_, case, func, literal_column, or_, select
 from sqlalchemy.orm import Session, aliased
 
 from app.dates import DateError, parse_interval
@@ -354,13 +354,29 @@ def needs_sources(resolved: ResolvedSlice) -> bool:
                 or resolved.omit_repository_ids or resolved.slice.min_collections > 1)  # fmt: skip
 
 
+def _document(resolved: ResolvedSlice) -> Any:
+    """Return the document an attestation counts for: its source, or the original its source copies.
+
+    Where the query joins the source anyway it is read from there; otherwise only the sources
+    that are copies are looked up (a small set, made once per query), and every other
+    attestation's document is its ``source_id`` from the attestations' index: a hub's thousands
+    of attestations are counted without reading their sources.
+    """
+    if needs_sources(resolved):
+        return func.coalesce(Source.copy_of_id, Source.id)
+    copy = aliased(Source)
+    copies = select(copy.id).where(copy.copy_of_id.is_not(None))
+    original = select(copy.copy_of_id).where(copy.id == Attestation.source_id).scalar_subquery()
+    return case((Attestation.source_id.in_(copies), original), else_=Attestation.source_id)
+
+
 def _evidence_query(
     resolved: ResolvedSlice, columns: list[Any], persons: Iterable[int] | None, both_ends: bool, *, sources: bool = True
 ) -> Any:
     """Return the SELECT of relation attestations kept by the slice, with the given columns.
 
-    ``sources=False`` leaves the source out when neither the columns nor the slice need it:
-    counting a hub's alters' ties then reads the attestations' index alone.
+    ``sources=False`` leaves the source out when neither the columns nor the slice need it
+    (documents counted with ``_document``): a hub's ties are then counted from the indexes.
     """
     s = resolved.slice
     person_a, person_b = aliased(Person), aliased(Person)
@@ -433,12 +449,12 @@ def relation_totals(session: Session, resolved: ResolvedSlice, *, persons: Itera
     The same filters as ``relation_evidence``, but counted by the database, so a hub's thousands
     of attestations cost one row per relation.
     """
-    document = func.coalesce(Source.copy_of_id, Source.id)
+    document = _document(resolved)
     columns = [
         Relation.id, Relation.kind_id, Relation.kind_directed, Relation.person_a_id, Relation.person_b_id,
         func.count(Attestation.id), func.count(document.distinct()),
     ]
-    query = _evidence_query(resolved, columns, persons, False).group_by(Relation.id)
+    query = _evidence_query(resolved, columns, persons, False, sources=False).group_by(Relation.id)
     if resolved.slice.min_collections > 1:
         query = query.having(func.count(Source.collection_id.distinct()) >= resolved.slice.min_collections)
     return [RelationTotal(*row) for row in session.connection().execute(query).all()]
@@ -467,18 +483,18 @@ def neighbour_totals(
     and the sources are not read unless the slice filters on them.
     """
     ids = sorted(set(persons))
-    document = func.coalesce(Source.copy_of_id, Source.id)
     columns = [Relation.person_a_id.label("a"), Relation.person_b_id.label("b")]
     if counts:
-        columns += [func.count(Attestation.id).label("attestations"), func.count(document.distinct()).label("documents")]
-    per_relation = _evidence_query(resolved, columns, ids, False, sources=counts).group_by(Relation.id)
+        columns += [func.count(Attestation.id).label("attestations"),
+                    func.count(_document(resolved).distinct()).label("documents")]  # fmt: skip
+    per_relation = _evidence_query(resolved, columns, ids, False, sources=False).group_by(Relation.id)
     if resolved.slice.min_collections > 1:
         per_relation = per_relation.having(func.count(Source.collection_id.distinct()) >= resolved.slice.min_collections)
     r = per_relation.subquery()
     # One pass over the relations (a UNION of two selects would count them twice): a relation
     # between two of ``persons`` is counted for one of its ends only, and callers leave those out.
     other = case((r.c.a.in_(ids), r.c.b), else_=r.c.a).label("other")
-    sums = [func.sum(r.c.attestations), func.sum(r.c.documents)] if counts else [literal(0), literal(0)]
+    sums = [func.sum(r.c.attestations), func.sum(r.c.documents)] if counts else [literal_column("0"), literal_column("0")]
     query = select(other, func.count(), *sums).group_by(other)
     return [NeighbourTotal(*row) for row in session.connection().execute(query).all()]
 
@@ -508,12 +524,12 @@ def slice_totals(
     and ``both_ends`` narrow the relations as in ``relation_evidence``. ``document_lists=False``
     leaves ``document_list`` empty, for callers whose ties never join two relations.
     """
-    document = func.coalesce(Source.copy_of_id, Source.id)
+    document = _document(resolved)
     columns = [
         Relation.id, Relation.kind_id, Relation.kind_directed, Relation.person_a_id, Relation.person_b_id,
-        func.count(Attestation.id), func.count(document.distinct()), distinct_list(document) if document_lists else literal(""),
+        func.count(Attestation.id), func.count(document.distinct()), distinct_list(document) if document_lists else literal_column("''"),
     ]
-    query = _evidence_query(resolved, columns, persons, both_ends).group_by(Relation.id)
+    query = _evidence_query(resolved, columns, persons, both_ends, sources=False).group_by(Relation.id)
     if resolved.slice.min_collections > 1:
         query = query.having(func.count(Source.collection_id.distinct()) >= resolved.slice.min_collections)
     return [SliceTotal(*row) for row in session.connection().execute(query).all()]

@@ -569,7 +569,8 @@ def get_person(
     rows = _relation_rows(session, person.id)
     # The relation rows give the degree and the relations' share of the attestations (a self-loop's once),
     # as degree_counts and attestation_counts count them, without reading a hub's relations twice more.
-    degree = len({b if a == person.id else a for _, _, a, b, *_ in rows if a != b})
+    pid = person.id  # read once: an ORM attribute costs a call on each of a hub's rows
+    degree = len({row[3] if row[2] == pid else row[2] for row in rows if row[2] != row[3]})
     attested = sum(row[4] for row in rows) + _membership_and_fact_attestations(session, person.id)
     return PersonDetail(
         key=person.key, name=person.name, sort_name=person.sort_name, kind=person.kind,
@@ -650,7 +651,7 @@ def _relation_rows(session: Session, pid: int) -> list:
     # The relations are found first, from either end, and then read in order of id: SQLite then
     # groups them as it goes (an OR of the two ends would sort a hub's thousands of groups).
     ids = select(Relation.id).where(Relation.person_a_id == pid).union_all(select(Relation.id).where(Relation.person_b_id == pid))
-    return list(session.execute(
+    return list(session.connection().execute(  # Core execution: the ORM's row processing costs more on a hub
         select(*columns).join(Attestation, Attestation.relation_id == Relation.id)
         .where(Relation.id.in_(ids), _LIVE).group_by(Relation.id)
     ).all())  # fmt: skip
@@ -669,24 +670,25 @@ def _relations(
 ) -> list[RelationKindGroup]:
     if not rows:
         return []
+    pid = person.id
     by_kind: dict[int, list] = defaultdict(list)
     for row in rows:
         by_kind[row[1]].append(row)
     totals = {kind_id: len(found) for kind_id, found in by_kind.items()}
     kinds = {k.id: k for k in session.scalars(select(RelationKind).where(RelationKind.id.in_(set(by_kind))))}
     if limit is not None:
-        by_kind = {kind_id: _strongest_rows(session, person.id, found, limit, directed=kinds[kind_id].directed)
+        by_kind = {kind_id: _strongest_rows(session, pid, found, limit, directed=kinds[kind_id].directed)
                    for kind_id, found in by_kind.items()}  # fmt: skip
     listed = [row for found in by_kind.values() for row in found]
-    others = person_refs(session=session, person_ids=[r[2] if r[3] == person.id else r[3] for r in listed])
+    others = person_refs(session=session, person_ids=[r[2] if r[3] == pid else r[3] for r in listed])
     grouped: dict[int, list[PersonRelation]] = defaultdict(list)
     for relation_id, kind_id, a, b, count, first, last, grade in listed:
         kind = kinds[kind_id]
-        other = others[b if a == person.id else a]
+        other = others[b if a == pid else a]
         grouped[kind_id].append(PersonRelation(
-            relation_id=relation_id, other=other, direction=_direction(a, b, person.id, kind.directed),
-            own_role=(kind.role_a if a == person.id else kind.role_b) if kind.directed else None,
-            other_role=(kind.role_b if a == person.id else kind.role_a) if kind.directed else None,
+            relation_id=relation_id, other=other, direction=_direction(a, b, pid, kind.directed),
+            own_role=(kind.role_a if a == pid else kind.role_b) if kind.directed else None,
+            other_role=(kind.role_b if a == pid else kind.role_a) if kind.directed else None,
             attestations=count, in_slice=None if in_slice is None else in_slice.get(relation_id, 0),
             earliest=first, latest=last, span=year_span(first, last), certainty=CERTAINTIES[grade],
         ))  # fmt: skip

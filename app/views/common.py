@@ -91,6 +91,8 @@ class Urls:
         self.root = root.rstrip("/")  # where the app is mounted, "" at the top of the site
         # The query string of each slice, written once: a hub's drawing links thousands of ties.
         self._slice_queries: dict[Slice, tuple[list[tuple[str, str]], str]] = {}
+        self._last_slice: Slice | None = None
+        self._last_query: tuple[list[tuple[str, str]], str] = ([], "")
 
     def home(self) -> str:
         return self._path("/")
@@ -261,10 +263,14 @@ class Urls:
     def _path(self, path: str, slice: Slice | None = None, **query: str | None) -> str:
         pairs, encoded = [], ""
         if slice is not None:
-            if slice not in self._slice_queries:
-                found = slice.to_query()
-                self._slice_queries[slice] = (found, urlencode(found))
-            pairs, encoded = self._slice_queries[slice]
+            if slice is self._last_slice:  # the same object again: not even hashed (a slice hashes all its fields)
+                pairs, encoded = self._last_query
+            else:
+                if slice not in self._slice_queries:
+                    found = slice.to_query()
+                    self._slice_queries[slice] = (found, urlencode(found))
+                pairs, encoded = self._last_query = self._slice_queries[slice]
+                self._last_slice = slice
         extra = [(name, str(value)) for name, value in query.items() if value is not None]
         if extra:
             encoded = urlencode(pairs + extra)

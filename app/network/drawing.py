@@ -186,19 +186,25 @@ def ego_drawing(network: EgoNetwork, kinds: list[KindLabel], *, weight: str = "d
     for edge in network.edges:
         pairs[(edge.source, edge.target) if edge.source <= edge.target else (edge.target, edge.source)].append(edge)
     order = {key: i for i, key in enumerate(styles)}
+    widths: dict[float, float] = {}  # a hub's thousands of ties have a few dozen weights
     for (a, b), group in sorted(pairs.items()):
-        group.sort(key=lambda e: (e.co_membership, order.get(e.kind, 0), e.source))
+        if len(group) > 1:
+            group.sort(key=lambda e: (e.co_membership, order.get(e.kind, 0), e.source))
+        middle = (len(group) - 1) / 2
         for i, edge in enumerate(group):
             style = CO_MEMBERSHIP_STYLE if edge.co_membership else styles[edge.kind]
             if a == b:
                 path = _loop_path(places[a], sizes[a], i)
             else:
-                bend = (i - (len(group) - 1) / 2) * PARALLEL_GAP
+                bend = (i - middle) * PARALLEL_GAP
                 path = _tie_path(places[edge.source], places[edge.target], sizes[edge.source], sizes[edge.target],
                                  bend if edge.source == a else -bend, arrow=style.directed)  # fmt: skip
+            width = widths.get(edge.weight)
+            if width is None:
+                width = widths[edge.weight] = _width(edge.weight, weight)
             edges.append(DrawnEdge(
                 source=edge.source, target=edge.target, kind=edge.kind, path=path, colour=style.colour, dash=style.dash,
-                width=_width(edge.weight, weight), marker=style.marker if edge.directed else "",
+                width=width, marker=style.marker if edge.directed else "",
                 title=_edge_title(edge, names), co_membership=edge.co_membership,
             ))  # fmt: skip
     present = {edge.kind for edge in network.edges if not edge.co_membership}

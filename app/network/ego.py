@@ -20,6 +20,7 @@ from app.network.slice import (
     ResolvedSlice,
     SliceTotal,
     neighbour_totals,
+    neighbours,
     relation_totals,
     slice_totals,
     tie_weight,
@@ -152,8 +153,8 @@ def ego_network(
     def tied_to(persons: Iterable[int]) -> set[int]:
         """Return the persons tied to ``persons`` in the slice, without the strength of the ties."""
         persons = sorted(persons)
-        return {row.person for start in range(0, len(persons), 200)
-                for row in neighbour_totals(session, resolved, persons=persons[start : start + 200], counts=False)}  # fmt: skip
+        return {person for start in range(0, len(persons), 200)
+                for person in neighbours(session, resolved, persons=persons[start : start + 200])}  # fmt: skip
 
     # Alters are chosen on sums made by the database; evidence rows are read only for the drawn.
     first = totals([ego_id])

@@ -41,6 +41,7 @@ __all__ = [
     "node_set",
     "needs_sources",
     "neighbour_totals",
+    "neighbours",
     "relation_evidence",
     "relation_totals",
     "resolve_slice",
@@ -469,24 +470,18 @@ class NeighbourTotal(NamedTuple):
     documents: int  # each relation's distinct documents, summed over the relations
 
 
-def neighbour_totals(
-    session: Session, resolved: ResolvedSlice, *, persons: Iterable[int], counts: bool = True
-) -> list[NeighbourTotal]:
+def neighbour_totals(session: Session, resolved: ResolvedSlice, *, persons: Iterable[int]) -> list[NeighbourTotal]:
     """Return every person tied to one of ``persons`` (either way) with the sums of those ties.
 
     Each relation between the person and one of ``persons`` counts once, with its attestations
     and distinct documents in the slice, as ``relation_totals`` counts them; the sums are made
     by the database (grouped by the other person), so a set of hubs with 90,000 relations costs
     one row per neighbour. ``persons`` themselves may appear too (tied to each other or to
-    themselves, counted for one end only); callers leave them out. With ``counts=False`` only
-    the persons and their numbers of relations are wanted: attestations and documents are 0,
-    and the sources are not read unless the slice filters on them.
+    themselves, counted for one end only); callers leave them out.
     """
     ids = sorted(set(persons))
-    columns = [Relation.person_a_id.label("a"), Relation.person_b_id.label("b")]
-    if counts:
-        columns += [func.count(Attestation.id).label("attestations"),
-                    func.count(_document(resolved).distinct()).label("documents")]  # fmt: skip
+    columns = [Relation.person_a_id.label("a"), Relation.person_b_id.label("b"),
+               func.count(Attestation.id).label("attestations"), func.count(_document(resolved).distinct()).label("documents")]
     per_relation = _evidence_query(resolved, columns, ids, False, sources=False).group_by(Relation.id)
     if resolved.slice.min_collections > 1:
         per_relation = per_relation.having(func.count(Source.collection_id.distinct()) >= resolved.slice.min_collections)
@@ -494,9 +489,23 @@ def neighbour_totals(
     # One pass over the relations (a UNION of two selects would count them twice): a relation
     # between two of ``persons`` is counted for one of its ends only, and callers leave those out.
     other = case((r.c.a.in_(ids), r.c.b), else_=r.c.a).label("other")
-    sums = [func.sum(r.c.attestations), func.sum(r.c.documents)] if counts else [literal_column("0"), literal_column("0")]
-    query = select(other, func.count(), *sums).group_by(other)
+    query = select(other, func.count(), func.sum(r.c.attestations), func.sum(r.c.documents)).group_by(other)
     return [NeighbourTotal(*row) for row in session.connection().execute(query).all()]
+
+
+def neighbours(session: Session, resolved: ResolvedSlice, *, persons: Iterable[int]) -> set[int]:
+    """Return the persons tied to one of ``persons`` (either way) in the slice, as ``neighbour_totals`` finds them.
+
+    Only who they are, not how strongly tied: the attestations are read from their index, neither
+    their sources nor a count per relation (unless the slice asks for ties attested in several
+    collections), so the persons two steps from a hub are found at a fraction of the cost.
+    """
+    ids = sorted(set(persons))
+    if resolved.slice.min_collections > 1:  # counted per relation
+        return {row.person for row in neighbour_totals(session, resolved, persons=ids)}
+    other = case((Relation.person_a_id.in_(ids), Relation.person_b_id), else_=Relation.person_a_id)
+    query = _evidence_query(resolved, [other], ids, False, sources=False).distinct()
+    return set(session.connection().execute(query).scalars())
 
 
 class SliceTotal(NamedTuple):

@@ -531,7 +531,8 @@ def person_refs(*, session: Session, person_ids: Iterable[int]) -> dict[int, Per
     wanted = sorted(ids)
     refs: dict[int, PersonRef] = {}
     for start in range(0, len(wanted), 500):  # stays under SQLite's limit of bound parameters
-        for pid, key, name, kind, unidentified in session.execute(select(*columns).where(Person.id.in_(wanted[start : start + 500]))):
+        rows = session.connection().execute(select(*columns).where(Person.id.in_(wanted[start : start + 500])))  # Core: no ORM rows
+        for pid, key, name, kind, unidentified in rows:
             refs[pid] = PersonRef(key=key, name=name, kind=kind, unidentified=unidentified)
     return refs
 

@@ -516,6 +516,45 @@ def test_neighbour_sums_equal_the_sums_of_each_relation(client: TestClient, quer
                 assert found == dict(expected), (query, anchors)
 
 
+@pytest.mark.parametrize("query", ["", "direction=undirected", "min_collections=2", "certainty=certain",
+                                   "from=1705&to=1712", "unidentified=drop", "kind=letter", "keep_collection=col-n1",
+                                   "omit_repository=rep-south", "evidence=original"])
+def test_neighbours_are_the_persons_of_the_neighbour_sums(client: TestClient, query: str):
+    """``neighbours`` (who only, from the attestations' index) finds exactly the persons ``neighbour_totals`` sums for."""
+    from app.network.slice import neighbour_totals, neighbours
+
+    database = client.app.state.database
+    with database.read() as session:
+        resolved = resolve_slice(session, Slice.from_query(parse_qsl(query)))
+        everyone = list(session.scalars(select(Person.id)))
+        for anchors in [*([p] for p in everyone), everyone[:3], everyone]:
+            expected = {row.person for row in neighbour_totals(session, resolved, persons=anchors)}
+            assert neighbours(session, resolved, persons=anchors) == expected, (query, anchors)
+
+
+def test_a_full_first_ring_counts_the_persons_two_steps_away_as_networkx_does(tmp_path):
+    """At radius 2 a cap the first ring fills leaves every person two steps away out, and counts them.
+
+    Zachary (1977), "An information flow model for conflict and fission in small groups", Journal
+    of Anthropological Research 33(4), shipped with networkx: every tie is one document, so the cap
+    keeps the alters by key, and the persons two steps away are the networkx neighbours of those.
+    """
+    G = nx.relabel_nodes(nx.karate_club_graph(), str)
+    settings = make_database(tmp_path / "karate-cap", graph_tables(G, {}))
+    database = Database(settings.database_url)
+    with database.read() as session:
+        resolved = resolve_slice(session, Slice())
+        ids = dict(session.execute(select(Person.key, Person.id)).all())
+        for node in sorted(G.nodes(), key=lambda n: (-G.degree(n), n))[:3]:
+            for cap in (2, 5):
+                network = ego_network(session, resolved, ids[f"n{node}"], radius=2, max_alters=cap)
+                kept = sorted(f"n{n}" for n in G[node])[:cap]
+                second = {m for k in kept for m in G[k.removeprefix("n")]} - set(G[node]) - {node}
+                assert {n.key for n in network.nodes} == {f"n{node}", *kept}, (node, cap)
+                assert network.left_out == {1: G.degree(node) - cap, 2: len(second)}, (node, cap)
+    database.dispose()
+
+
 def test_the_cap_keeps_the_strongest_alters_whatever_the_direction_mode(client: TestClient):
     """With the cap lowered to 2, the two alters kept are those of the largest summed weight (ties by key)."""
     database = client.app.state.database

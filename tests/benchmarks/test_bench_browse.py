@@ -19,6 +19,7 @@ from __future__ import annotations
 
 import functools
 import gc
+import os
 import statistics
 import sys
 import time
@@ -95,6 +96,7 @@ def test_browse_person_and_ego(cache_dir):
                     "person page median_ms (median person)": 150, "person page median_ms (hub)": 300},
         "cold": "ego panel not kept, median of 5 runs; cold_nothing_kept: also every in-process cache "
                 "cleared and the connections closed",
+        "load average at start": round(os.getloadavg()[0], 2),  # other work on the machine stretches elapsed times
     }  # fmt: skip
     for label, person, degree in (("hub", hub, hub_degree), ("median person", median, median_degree)):
         key = keys[person]
@@ -109,4 +111,5 @@ def test_browse_person_and_ego(cache_dir):
                 "cold_nothing_kept": _cold(client, url, lambda: _forget_everything(client)),
                 "warm": timings(lambda: client.get(url), repeat=20),
             }
+    figures["load average at end"] = round(os.getloadavg()[0], 2)
     report("browse", figures)

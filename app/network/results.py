@@ -36,21 +36,11 @@ from app.network.measures.cliques import CLIQUE_LIMIT
 from app.network.measures import MEASURES, cliques, communities, components, compute, cuts, summarize
 from app.network.measures.results import MeasureError
 from app.network.measures.arcs import ArcGraph
-from app.network.same_as import merge_nodes, merge_rows, same_as_mapping
-from app.network.slice import (
-    ResolvedSlice,
-    Slice,
-    arc_counts,
-    collection_counts,
-    graph_from_totals,
-    node_set,
-    resolve_slice,
-    slice_totals,
-    tie_arcs,
-    tie_weight,
-)
+from app.network.same_as import merge_nodes, same_as_mapping
+from app.network.slice import ResolvedSlice, Slice, collection_counts, node_set_of, resolve_slice
+from app.network.slice_arrays import SliceArrays, TieArrays, slice_arrays, tie_arrays
 from app.store.measure_results import get_stored_result, save_result
-from app.store.network_labels import list_collection_names, list_person_labels
+from app.store.network_labels import list_collection_names, list_person_keys
 from app.store.summary import get_data_version
 
 __all__ = [
@@ -243,6 +233,8 @@ class SliceGraph:
     seconds: float  # time taken to read the evidence and build the graph
     arcs: ArcGraph
     make_graph: Callable[[], nx.Graph]
+    relations: SliceArrays | None = None  # the relations behind the ties (None for a co-membership graph)
+    ties: TieArrays | None = None  # tie k is arc k of ``arcs``, with its counts
     _built: dict[str, nx.Graph] = field(default_factory=dict, compare=False, repr=False)
 
     @property
@@ -254,26 +246,29 @@ class SliceGraph:
 
     @classmethod
     def build(cls, session: Session, slice_: Slice) -> SliceGraph:
-        """Read the slice's relations, counted in SQL, and build its graph (SliceError for an unknown key)."""
+        """Read the slice's relations and build its graph as arrays (SliceError for an unknown key).
+
+        One plain read of the evidence, counted in numpy (``app.network.slice_arrays``): no
+        Python object per relation or per tie, and only the persons' keys, not their labels.
+        """
         if slice_.mode != "relations":
             return cls.from_co_membership(session, slice_)
         started = time.perf_counter()
         resolved = resolve_slice(session, slice_)
         same_as = same_as_mapping(session, slice_.same_as)  # persons linked as possibly one, under same_as=merge
-        totals = merge_rows(slice_totals(session, resolved), same_as)
-        arcs, tied = tie_arcs(resolved, totals)
-        nodes = sorted(merge_nodes(node_set(session, resolved, totals, tied), same_as))
-        labels = list_person_labels(session=session, ids=nodes)
-        position = {node: i for i, node in enumerate(nodes)}
-        counts = [arc_counts(rows) for rows in arcs.values()]
-        array_graph = ArcGraph.from_arrays(
-            nodes, [position[u] for u, _ in arcs], [position[v] for _, v in arcs],
-            [tie_weight(attestations, documents, slice_.weight) for attestations, documents in counts],
-            directed=slice_.direction == "recorded",
-        )
-        return cls(slice_, {node: labels[node].key for node in nodes}, resolved,
-                   {row.relation_id: row.attestations for row in totals}, time.perf_counter() - started, array_graph,
-                   lambda: graph_from_totals(None, resolved, totals, arcs=(arcs, tied), nodes=nodes))
+        relations = slice_arrays(session, resolved, same_as)
+        ties = tie_arrays(relations, direction=slice_.direction, loops=slice_.loops)
+        related = set(np.concatenate([relations.a, relations.b]).tolist())
+        tied = set(np.concatenate([relations.a[ties.tied], relations.b[ties.tied]]).tolist())
+        nodes = sorted(merge_nodes(node_set_of(session, resolved, related, tied), same_as))
+        keys = list_person_keys(session=session, ids=nodes)
+        node_array = np.asarray(nodes, dtype=np.int64)
+        weight = {"attestations": ties.attestations, "none": np.ones(len(ties))}.get(slice_.weight, ties.documents)
+        array_graph = ArcGraph.from_arrays(nodes, np.searchsorted(node_array, ties.u), np.searchsorted(node_array, ties.v),
+                                           weight, directed=slice_.direction == "recorded")
+        return cls(slice_, {node: keys[node] for node in nodes}, resolved,
+                   dict(zip(relations.relation.tolist(), relations.attestations.tolist())), time.perf_counter() - started,
+                   array_graph, lambda: _graph_of(array_graph, relations, ties), relations, ties)
 
     @classmethod
     def from_co_membership(cls, session: Session, slice_: Slice) -> SliceGraph:
@@ -282,10 +277,25 @@ class SliceGraph:
         relations = cls.build(session, slice_.with_(mode="relations")) if slice_.mode == "both" else None
         resolved = resolve_slice(session, slice_)
         G = co_membership_graph(session, resolved, relations=relations.G if relations else None)
-        labels = list_person_labels(session=session, ids=list(G))
-        return cls(slice_, {node: labels[node].key for node in G}, resolved,
+        keys = list_person_keys(session=session, ids=list(G))
+        return cls(slice_, {node: keys[node] for node in G}, resolved,
                    relations.attestations if relations else {}, time.perf_counter() - started,
                    ArcGraph.from_networkx(G), lambda: G)
+
+
+def _graph_of(arcs: ArcGraph, relations: SliceArrays, ties: TieArrays) -> nx.Graph:
+    """Return the networkx graph of the slice (``graph_from_evidence``'s edges, without attestation or document ids)."""
+    G: nx.Graph = nx.DiGraph() if arcs.directed else nx.Graph()
+    G.add_nodes_from(arcs.nodes)
+    starts = np.searchsorted(ties.entry_tie, np.arange(len(ties) + 1)).tolist()
+    relation_ids, kinds = relations.relation[ties.entry_relation].tolist(), relations.kind[ties.entry_relation].tolist()
+    G.add_edges_from(
+        (u, v, {"weight": w, "attestations": a, "documents": d, "relation_ids": sorted(relation_ids[s:e]),
+                "kinds": sorted(set(kinds[s:e]))})
+        for u, v, w, a, d, s, e in zip(ties.u.tolist(), ties.v.tolist(), arcs.weight.tolist(), ties.attestations.tolist(),
+                                       ties.documents.tolist(), starts[:-1], starts[1:])
+    )
+    return G
 
 
 def compute_result(session: Session, graph: SliceGraph, *, measure: str, options: dict[str, Any]) -> dict[str, Any]:

@@ -34,6 +34,7 @@ from app.db import Database
 from app.network.comembership import PROJECTION_CLIQUE_LIMIT, co_membership_graph, membership_collection_counts, mode_conventions, mode_population
 from app.network.measures.cliques import CLIQUE_LIMIT
 from app.network.measures import MEASURES, cliques, communities, components, compute, cuts, summarize
+from app.network.measures.cuts import TieRecord
 from app.network.measures.results import MeasureError
 from app.network.measures.arcs import ArcGraph
 from app.network.same_as import merge_nodes, same_as_mapping
@@ -313,11 +314,11 @@ def _compute(session: Session, graph: SliceGraph, *, measure: str, options: dict
     if measure == "components":
         return _with_mode(_components(graph.arcs, slice_, key_of), slice_)
     if measure == "cut-points":
-        return _with_mode(_cuts(graph.G, slice_, key_of), slice_)
+        return _with_mode(_cuts(graph, slice_, key_of), slice_)
     if measure == "cliques":
-        payload = _cliques(graph.G, slice_, key_of, options)
+        payload = _cliques(graph.arcs, slice_, key_of, options)
     elif measure == "communities":
-        payload = _communities(graph.G, slice_, key_of, options)
+        payload = _communities(graph.arcs, slice_, key_of, options)
     else:
         payload = _centrality(graph.arcs, measure, slice_, key_of, options)
     return _with_mode(payload, slice_)
@@ -384,8 +385,13 @@ def _components(G: nx.Graph, slice_: Slice, key_of: dict) -> dict[str, Any]:
             "conventions": result.conventions}
 
 
-def _cuts(G: nx.Graph, slice_: Slice, key_of: dict) -> dict[str, Any]:
-    result = cuts(G, node_set=slice_.nodes)
+def _cuts(graph: SliceGraph, slice_: Slice, key_of: dict) -> dict[str, Any]:
+    if graph.relations is None:  # a co-membership graph: its edges carry the evidence
+        G = graph.G
+        result = cuts(G, node_set=slice_.nodes)
+    else:
+        G = graph.arcs
+        result = cuts(G, node_set=slice_.nodes, evidence=_tie_records(graph))
     return {
         "n": len(G), "directed": G.is_directed(), "conventions": result.conventions,
         "cut_points": [{"key": key_of[c.node], "pieces": c.pieces, "component_size": c.component_size,
@@ -394,6 +400,32 @@ def _cuts(G: nx.Graph, slice_: Slice, key_of: dict) -> dict[str, Any]:
                      "documents": b.documents, "attestations": b.attestations, "relation_ids": b.relation_ids,
                      "single_document": b.single_document} for b in result.bridges],
     }  # fmt: skip
+
+
+def _tie_records(graph: SliceGraph) -> Callable[[int, int], TieRecord]:
+    """Return what the slice holds about the tie between two persons, both directions together.
+
+    The relations behind the tie (or behind its two arcs on a directed slice) with their
+    attestations and their documents, each document counted once: an undirected kind such as
+    marriage, drawn as two arcs under ``direction=recorded``, is one relation and its documents.
+    """
+    relations, ties, arcs = graph.relations, graph.ties, graph.arcs
+    assert relations is not None and ties is not None
+    span = int(max(ties.u.max(initial=0), ties.v.max(initial=0))) + 1
+    keys = ties.u * span + ties.v
+
+    def record(u: int, v: int) -> TieRecord:
+        found = [int(t) for t in np.searchsorted(keys, [u * span + v, v * span + u]) if t < len(keys)]
+        found = [t for t in found if (int(ties.u[t]), int(ties.v[t])) in ((u, v), (v, u))]
+        behind = np.unique(np.concatenate([ties.relations_of(t) for t in found]))
+        starts = np.searchsorted(relations.pair_relation, behind)
+        ends = np.searchsorted(relations.pair_relation, behind + 1)
+        documents = len(set(np.concatenate([relations.pair_document[a:b] for a, b in zip(starts, ends)]).tolist()))
+        return TieRecord(weight=float(max(arcs.weight[t] for t in found)), documents=documents,
+                         attestations=int(relations.attestations[behind].sum()), attestation_ids=[],
+                         relation_ids=relations.relation[behind].tolist(), single_document=documents == 1)
+
+    return record
 
 
 def _cliques(G: nx.Graph, slice_: Slice, key_of: dict, options: dict[str, Any]) -> dict[str, Any]:

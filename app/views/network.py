@@ -94,6 +94,10 @@ VIEWS = ("summary", "centrality", "components", "cut-points", "cliques", "commun
 SORTS = {"rank": "asc", "name": "asc", "value": "desc", "raw": "desc"}
 """Columns of the ranked table that can be sorted, with their first order."""
 PAGE_SIZE = 500
+ROWS_SHOWN = 300
+"""Groups (components, cliques) and persons (isolates, per person) listed on a page; the CSV holds all."""
+MEMBERS_SHOWN = 60
+"""Members listed of each component, clique or community on a page; the CSV holds all."""
 """Rows of a ranked table per page (the CSV download holds them all)."""
 MAX_SEED = 2**31 - 1
 EMPTY_NOTE = ("No person is in this slice, so there is nothing to measure. The slice keeps no evidence: widen it "
@@ -239,21 +243,26 @@ def centrality_view(
     )  # fmt: skip
 
 
-def components_view(*, session: Session, database: Database, slice: Slice, recompute: bool = False) -> ComponentsPage:  # noqa: A002
-    """Return every component of ``slice``."""
+def components_view(*, session: Session, database: Database, slice: Slice, recompute: bool = False,  # noqa: A002
+                    all_rows: bool = False) -> ComponentsPage:
+    """Return every component of ``slice`` (the first ``ROWS_SHOWN``, with ``MEMBERS_SHOWN`` members each, unless ``all_rows``)."""
     outcome = _outcome(database, "components", slice, {}, recompute)
     p = outcome.payload
-    people = _people(session, [key for c in p["components"] for key in c["members"]])
+    rows, members = (None, None) if all_rows else (ROWS_SHOWN, MEMBERS_SHOWN)
+    parts = {"components": p["components"][:rows], "strong": (p["strong"] or [])[:rows]}
+    isolates = p["isolates"][:rows]
+    people = _people(session, [k for listed in parts.values() for c in listed for k in c["members"][:members]] + isolates)
 
-    def listed(parts: list[dict]) -> list[ComponentRow]:
-        return [ComponentRow(c["number"], c["size"], c["ties"], [people[k] for k in c["members"]]) for c in parts]
+    def listed(found: list[dict]) -> list[ComponentRow]:
+        return [ComponentRow(c["number"], c["size"], c["ties"], [people[k] for k in c["members"][:members]]) for c in found]
 
     tables = ["components", "strong", "isolates"] if p["strong"] is not None else ["components", "isolates"]
     return ComponentsPage(
         slice=slice, conventions=p["conventions"], computed_at_version=outcome.computed_at_version,
-        components=listed(p["components"]), strong=listed(p["strong"]) if p["strong"] is not None else None,
-        isolates=[people[k] for k in p["isolates"]], largest_share=p["largest_share"],
-        context=_context(session, "components", slice, outcome, [], tables),
+        components=listed(parts["components"]), strong=listed(parts["strong"]) if p["strong"] is not None else None,
+        isolates=[people[k] for k in isolates], largest_share=p["largest_share"], component_count=len(p["components"]),
+        strong_count=len(p["strong"]) if p["strong"] is not None else None, isolate_count=len(p["isolates"]),
+        members_shown=members, rows_shown=rows, context=_context(session, "components", slice, outcome, [], tables),
     )  # fmt: skip
 
 
@@ -277,37 +286,49 @@ def cut_points_view(*, session: Session, database: Database, slice: Slice, recom
 
 def cliques_view(
     *, session: Session, database: Database, slice: Slice, min_size: str | None = None, recompute: bool = False,  # noqa: A002
+    all_rows: bool = False,
 ) -> CliquesPage:
-    """Return the maximal cliques of at least ``min_size`` persons (3 by default) of ``slice``."""
+    """Return the maximal cliques of at least ``min_size`` persons (3 by default) of ``slice``.
+
+    The first ``ROWS_SHOWN`` cliques and persons, ``MEMBERS_SHOWN`` members each, unless ``all_rows``.
+    """
     size = _whole("min_size", min_size, default=3, low=2, high=1000)
     outcome = _outcome(database, "cliques", slice, {"min_size": size}, recompute)
     p = outcome.payload
-    people = _people(session, [k for c in p["cliques"] for k in c["members"]])
+    rows, members = (None, None) if all_rows else (ROWS_SHOWN, MEMBERS_SHOWN)
+    found, per_person = p["cliques"][:rows], p["per_person"][:rows]
+    people = _people(session, [k for c in found for k in c["members"][:members]] + [row["key"] for row in per_person])
     return CliquesPage(
         slice=slice, conventions=p["conventions"], computed_at_version=outcome.computed_at_version,
         min_size=p["min_size"], limit=p["limit"], complete=p["complete"], projection_note=p.get("projection_note"),
-        cliques=[CliqueRow(c["number"], len(c["members"]), [people[k] for k in c["members"]]) for c in p["cliques"]],
-        per_person=[PersonCount(people[row["key"]], row["cliques"]) for row in p["per_person"]],
+        cliques=[CliqueRow(c["number"], len(c["members"]), [people[k] for k in c["members"][:members]]) for c in found],
+        per_person=[PersonCount(people[row["key"]], row["cliques"]) for row in per_person],
+        clique_count=len(p["cliques"]), per_person_count=len(p["per_person"]), members_shown=members, rows_shown=rows,
         context=_context(session, "cliques", slice, outcome, _non_default(min_size=(str(size), "3")), ["cliques", "per_person"]),
     )  # fmt: skip
 
 
 def communities_view(
     *, session: Session, database: Database, slice: Slice, method: str | None = None, seed: str | None = None,  # noqa: A002
-    recompute: bool = False,
+    recompute: bool = False, all_rows: bool = False,
 ) -> CommunitiesPage:
-    """Return the communities of ``slice`` found by ``method`` (leiden by default) with ``seed`` (0)."""
+    """Return the communities of ``slice`` found by ``method`` (leiden by default) with ``seed`` (0).
+
+    ``MEMBERS_SHOWN`` members of each and the first ``ROWS_SHOWN`` isolates, unless ``all_rows``.
+    """
     method = (method or "leiden").strip().lower()
     if method not in METHODS:
         raise BadParameter("method", method, METHODS)
     number = _whole("seed", seed, default=0, low=0, high=MAX_SEED)
     outcome = _outcome(database, "communities", slice, {"method": method, "seed": number}, recompute)
     p = outcome.payload
-    people = _people(session, [k for c in p["communities"] for k in c["members"]] + p["isolates"])
+    rows, members = (None, None) if all_rows else (ROWS_SHOWN, MEMBERS_SHOWN)
+    isolates = p["isolates"][:rows]
+    people = _people(session, [k for c in p["communities"] for k in c["members"][:members]] + isolates)
     consistency = (p["stability"] or {}).get("consistency", {})
     communities = [
         CommunityRow(c["number"], len(c["members"]), c["ties"], c["weight"],
-                     [CommunityMember(people[k], consistency.get(k)) for k in c["members"]])
+                     [CommunityMember(people[k], consistency.get(k)) for k in c["members"][:members]])
         for c in p["communities"]
     ]  # fmt: skip
     s = p["stability"]
@@ -316,7 +337,8 @@ def communities_view(
     return CommunitiesPage(
         slice=slice, conventions=p["conventions"], computed_at_version=outcome.computed_at_version, method=method,
         methods=list(METHODS), seed=number, engine=p["engine"], modularity=p["modularity"], communities=communities,
-        links=[CommunityLinkRow(**link) for link in p["links"]], isolates=[people[k] for k in p["isolates"]],
+        links=[CommunityLinkRow(**link) for link in p["links"]], isolates=[people[k] for k in isolates],
+        isolate_count=len(p["isolates"]), members_shown=members, rows_shown=rows,
         stability=stability, caution=ONE_SEED,
         context=_context(session, "communities", slice, outcome, parameters, ["members", "links", "isolates"]),
     )  # fmt: skip
@@ -697,7 +719,7 @@ _COMPONENTS = ("Every component of the slice with its size, ties and members, la
             description=_COMPONENTS + " JSON: `/api/network/components`.")  # fmt: skip
 def components_page(request: Request, session: SessionDep, database: DatabaseDep, slice: SliceDep,  # noqa: A002
                     format: str | None = _FORMAT, table: str | None = _TABLE) -> Response:  # noqa: A002
-    view = components_view(session=session, database=database, slice=slice)
+    view = components_view(session=session, database=database, slice=slice, all_rows=bool(format))
     return _respond(request, view, template="network_components.html", partial="_network_components.html", fmt=format,
                     table=table, filename="components")
 
@@ -740,7 +762,7 @@ _CLIQUES = (f"The maximal cliques (everyone tied to everyone) of at least `min_s
             description=_CLIQUES + " JSON: `/api/network/cliques`.")  # fmt: skip
 def cliques_page(request: Request, session: SessionDep, database: DatabaseDep, slice: SliceDep,  # noqa: A002
                  min_size: str | None = _MIN_SIZE, format: str | None = _FORMAT, table: str | None = _TABLE) -> Response:  # noqa: A002
-    view = cliques_view(session=session, database=database, slice=slice, min_size=min_size)
+    view = cliques_view(session=session, database=database, slice=slice, min_size=min_size, all_rows=bool(format))
     return _respond(request, view, template="network_cliques.html", partial="_network_cliques.html", fmt=format,
                     table=table, filename="cliques")
 
@@ -767,7 +789,8 @@ def communities_page(
     request: Request, session: SessionDep, database: DatabaseDep, slice: SliceDep, method: str | None = _METHOD,  # noqa: A002
     seed: str | None = _SEED, format: str | None = _FORMAT, table: str | None = _TABLE,  # noqa: A002
 ) -> Response:
-    view = communities_view(session=session, database=database, slice=slice, method=method, seed=seed)
+    view = communities_view(session=session, database=database, slice=slice, method=method, seed=seed,
+                            all_rows=bool(format))
     return _respond(request, view, template="network_communities.html", partial="_network_communities.html", fmt=format,
                     table=table, filename=f"communities-{view.method}")
 

@@ -372,9 +372,19 @@ class ComponentsPage:
     strong: list[ComponentRow] | None
     """Strongly connected components of a directed slice (every member reaches every other along the arcs)."""
     isolates: list[PersonRef]
-    """Persons without a tie to anyone else."""
+    """Persons without a tie to anyone else (the first ``rows_shown``; the CSV holds all)."""
     largest_share: float | None
     """Share of the persons in the largest component."""
+    component_count: int
+    """Number of components (only the first ``rows_shown`` are listed; the CSV holds all)."""
+    strong_count: int | None
+    """Number of strongly connected components of a directed slice."""
+    isolate_count: int
+    """Number of persons without ties."""
+    members_shown: int | None
+    """At most this many members of each component are listed (None: all, as in the CSV); ``size`` counts them all."""
+    rows_shown: int | None
+    """At most this many components and isolates are listed (None: all)."""
     context: PageContext
     """Slice, node set, freshness and the slice form."""
 
@@ -488,9 +498,17 @@ class CliquesPage:
     projection_note: str | None
     """On a co-membership graph: why the search is capped lower (a group is a clique by construction)."""
     cliques: list[CliqueRow]
-    """The cliques, largest first."""
+    """The cliques, largest first (the first ``rows_shown``; the CSV holds all)."""
     per_person: list[PersonCount]
-    """Persons in at least one listed clique, most cliques first."""
+    """Persons in at least one listed clique, most cliques first (the first ``rows_shown``)."""
+    clique_count: int
+    """Number of cliques found."""
+    per_person_count: int
+    """Number of persons in at least one clique."""
+    members_shown: int | None
+    """At most this many members of each clique are listed (None: all); ``size`` counts them all."""
+    rows_shown: int | None
+    """At most this many cliques and persons are listed (None: all, as in the CSV)."""
     context: PageContext
     """Slice, node set, freshness and the slice form."""
 
@@ -584,7 +602,13 @@ class CommunitiesPage:
     links: list[CommunityLinkRow]
     """Ties between communities, heaviest first."""
     isolates: list[PersonRef]
-    """Persons without ties: in no community."""
+    """Persons without ties: in no community (the first ``rows_shown``; the CSV holds all)."""
+    isolate_count: int
+    """Number of persons without ties."""
+    members_shown: int | None
+    """At most this many members of each community are listed (None: all, as in the CSV); ``size`` counts them all."""
+    rows_shown: int | None
+    """At most this many isolates are listed (None: all)."""
     stability: StabilityInfo | None
     """Agreement across seeds (None without ties)."""
     caution: str

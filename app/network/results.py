@@ -34,6 +34,7 @@ from app.db import Database
 from app.network.comembership import PROJECTION_CLIQUE_LIMIT, co_membership_graph, membership_collection_counts, mode_conventions, mode_population
 from app.network.measures.cliques import CLIQUE_LIMIT
 from app.network.measures import MEASURES, cliques, communities, components, compute, cuts, summarize
+from app.network.measures.communities import STABILITY_RUNS
 from app.network.measures.cuts import TieRecord
 from app.network.measures.results import MeasureError
 from app.network.measures.arcs import ArcGraph
@@ -310,7 +311,7 @@ def compute_result(session: Session, graph: SliceGraph, *, measure: str, options
 def _compute(session: Session, graph: SliceGraph, *, measure: str, options: dict[str, Any]) -> dict[str, Any]:
     slice_, key_of = graph.slice, graph.key_of
     if measure == "summary":
-        return _with_mode(_summary(session, graph), slice_)
+        return _with_mode(_summary(session, graph, exact_paths=True if options.get("exact_paths") else None), slice_)
     if measure == "components":
         return _with_mode(_components(graph.arcs, slice_, key_of), slice_)
     if measure == "cut-points":
@@ -352,7 +353,7 @@ def _centrality(G: nx.Graph, measure: str, slice_: Slice, key_of: dict, options:
             "sampling": sampling, "rows": rows}
 
 
-def _summary(session: Session, graph: SliceGraph) -> dict[str, Any]:
+def _summary(session: Session, graph: SliceGraph, *, exact_paths: bool | None = None) -> dict[str, Any]:
     G, slice_ = graph.G, graph.slice
     in_graph = {r for _, _, ids in G.edges(data="relation_ids") for r in ids or ()}
     per_collection = Counter(collection_counts(session, graph.resolved, in_graph))
@@ -361,7 +362,7 @@ def _summary(session: Session, graph: SliceGraph) -> dict[str, Any]:
     printed = per_collection.pop(None, 0)
     names = list_collection_names(session=session, ids=list(per_collection))
     counts = {names[c]: count for c, count in per_collection.items()}
-    summary = summarize(G, node_set=slice_.nodes, collection_counts=counts)
+    summary = summarize(G, node_set=slice_.nodes, collection_counts=counts, exact_paths=exact_paths)
     payload = asdict(summary)
     payload["attestations"] = sum(graph.attestations[r] for r in in_graph) + G.graph.get("membership_attestations", 0)
     for field in ("degree_distribution", "in_degree_distribution", "out_degree_distribution"):
@@ -441,7 +442,7 @@ def _cliques(G: nx.Graph, slice_: Slice, key_of: dict, options: dict[str, Any]) 
 
 def _communities(G: nx.Graph, slice_: Slice, key_of: dict, options: dict[str, Any]) -> dict[str, Any]:
     result = communities(G, method=options.get("method", "leiden"), seed=options.get("seed", 0),
-                         loops=slice_.loops, node_set=slice_.nodes)
+                         loops=slice_.loops, node_set=slice_.nodes, runs=options.get("runs", STABILITY_RUNS))
     stability = None
     if result.stability is not None:
         s = result.stability

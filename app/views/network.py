@@ -30,8 +30,8 @@ from app.network.measures.communities import METHODS
 from app.network.measures.conventions import population_sentence
 from app.network.measures.results import MeasureError
 from app.auth import CsrfChecked, ReaderActor, request_visibility
-from app.network.jobs import INLINE_UP_TO, Pending, Worker, current_job, needs_worker, outcome_or_job
-from app.network.results import SAMPLED, Outcome, get_or_compute_many, peek_outcome
+from app.network.jobs import INLINE_UP_TO, Pending, Worker, current_job, needs_worker, outcome_or_job, queue_recompute, slice_size
+from app.network.results import CHEAP, SAMPLED, Outcome, get_or_compute_many, peek_outcome
 from app.network.measures.summary import small_slice_warning
 from app.network.slice import Slice
 from app.store.jobs import JobInfo
@@ -145,9 +145,20 @@ def network_index(*, session: Session, slice: Slice) -> NetworkIndex:  # noqa: A
                         controls=slice_controls(session=session, slice=slice))  # fmt: skip
 
 
-def summary_view(*, session: Session, database: Database, slice: Slice, recompute: bool = False) -> SummaryPage:  # noqa: A002
-    """Return the summary page of ``slice``."""
+def summary_view(
+    *, session: Session, database: Database, slice: Slice, recompute: bool = False, worker: Worker | None = None,  # noqa: A002
+    requested_by: str = "anonymous", inline_up_to: int = INLINE_UP_TO,
+) -> SummaryPage:
+    """Return the summary page of ``slice``.
+
+    On a large slice the path lengths are first estimated from sampled persons; the exact ones
+    are computed by the background worker and replace the estimate once stored.
+    """
     outcome = _outcome(database, "summary", slice, {}, recompute)
+    job = None
+    if outcome.payload.get("path_sources"):
+        outcome, job = _refined(database, worker, "summary", {"exact_paths": True}, slice, outcome, recompute, requested_by,
+                                inline_up_to)
     p = outcome.payload
     distribution = _degrees(p["degree_distribution"])
     counted = sum(count for _, count in p["collections"])
@@ -169,6 +180,7 @@ def summary_view(*, session: Session, database: Database, slice: Slice, recomput
         printed_attestations=p["printed_attestations"],
         context=_context(session, "summary", slice, outcome, [],
                          ["figures", "degrees", *(["in_degrees", "out_degrees"] if p["directed"] else []), "collections"]),
+        job=job,
     )  # fmt: skip
 
 
@@ -188,7 +200,12 @@ def centrality_view(
     wants_exact = _yes_no("exact", exact)
     options = {"exact": True} if wants_exact and measure in SAMPLED else {}
     job: BackgroundJob | None = None
-    if recompute:
+    if recompute and needs_worker(measure, options, slice_size(database, slice, request_visibility()), inline_up_to):
+        job = _job_view(queue_recompute(database, worker, measure=measure, options=options, slice=slice,
+                                        requested_by=requested_by, visibility=request_visibility()), measure)
+        stored = peek_outcome(database, measure=measure, slice=slice, options=options, visibility=request_visibility())
+        outcome = stored if stored is not None else _pending_outcome(database, measure, slice)
+    elif recompute:
         outcome = _outcome(database, measure, slice, options, recompute)
     else:
         found = _background(database, worker, measure, options, slice, requested_by, inline_up_to)
@@ -272,9 +289,9 @@ def cut_points_view(*, session: Session, database: Database, slice: Slice, recom
     p = outcome.payload
     people = _people(session, [c["key"] for c in p["cut_points"]] + [k for b in p["bridges"] for k in (b["a"], b["b"])])
     bridges = [
-        BridgeRow(a=people[b["a"]], b=people[b["b"]], sides=b["sides"], weight=b["weight"], documents=b["documents"],
-                  attestations=b["attestations"], single_document=b["single_document"], relation_ids=b["relation_ids"])
-        for b in p["bridges"]
+        BridgeRow(a=people[a], b=people[b], sides=sides, weight=row["weight"], documents=row["documents"],
+                  attestations=row["attestations"], single_document=row["single_document"], relation_ids=row["relation_ids"])
+        for row in p["bridges"] for a, b, sides in [_larger_side_first(row)]
     ]  # fmt: skip
     return CutPointsPage(
         slice=slice, conventions=p["conventions"], computed_at_version=outcome.computed_at_version,
@@ -310,17 +327,27 @@ def cliques_view(
 
 def communities_view(
     *, session: Session, database: Database, slice: Slice, method: str | None = None, seed: str | None = None,  # noqa: A002
-    recompute: bool = False, all_rows: bool = False,
+    recompute: bool = False, all_rows: bool = False, worker: Worker | None = None, requested_by: str = "anonymous",
+    inline_up_to: int = INLINE_UP_TO,
 ) -> CommunitiesPage:
     """Return the communities of ``slice`` found by ``method`` (leiden by default) with ``seed`` (0).
 
-    ``MEMBERS_SHOWN`` members of each and the first ``ROWS_SHOWN`` isolates, unless ``all_rows``.
+    ``MEMBERS_SHOWN`` members of each and the first ``ROWS_SHOWN`` isolates, unless ``all_rows``. On a
+    large slice the partition of the seed is shown at once and the comparison across seeds is left
+    to the background worker.
     """
     method = (method or "leiden").strip().lower()
     if method not in METHODS:
         raise BadParameter("method", method, METHODS)
     number = _whole("seed", seed, default=0, low=0, high=MAX_SEED)
-    outcome = _outcome(database, "communities", slice, {"method": method, "seed": number}, recompute)
+    options = {"method": method, "seed": number}
+    job = None
+    if needs_worker("communities", options, slice_size(database, slice, request_visibility()), inline_up_to):
+        # A large slice: one seed's partition at once, its stability across seeds from the background worker.
+        quick = _outcome(database, "communities", slice, {**options, "runs": 1}, recompute)
+        outcome, job = _refined(database, worker, "communities", options, slice, quick, recompute, requested_by, inline_up_to)
+    else:
+        outcome = _outcome(database, "communities", slice, options, recompute)
     p = outcome.payload
     rows, members = (None, None) if all_rows else (ROWS_SHOWN, MEMBERS_SHOWN)
     isolates = p["isolates"][:rows]
@@ -340,20 +367,44 @@ def communities_view(
         links=[CommunityLinkRow(**link) for link in p["links"]], isolates=[people[k] for k in isolates],
         isolate_count=len(p["isolates"]), members_shown=members, rows_shown=rows,
         stability=stability, caution=ONE_SEED,
-        context=_context(session, "communities", slice, outcome, parameters, ["members", "links", "isolates"]),
+        context=_context(session, "communities", slice, outcome, parameters, ["members", "links", "isolates"]), job=job,
     )  # fmt: skip
 
 
-def person_measures_view(*, session: Session, database: Database, key: str, slice: Slice) -> PersonMeasures:  # noqa: A002
-    """Return one person's value and rank for every centrality the slice gives; 404 for an unknown person."""
+def person_measures_view(
+    *, session: Session, database: Database, key: str, slice: Slice, worker: Worker | None = None,  # noqa: A002
+    requested_by: str = "anonymous", inline_up_to: int = INLINE_UP_TO,
+) -> PersonMeasures:
+    """Return one person's value and rank for every centrality the slice gives; 404 for an unknown person.
+
+    On a slice of more than ``inline_up_to`` persons only the cheap measures are computed here; the
+    others are read from the stored results, or queued for the background worker (their exact
+    form) and listed as computing.
+    """
     person = get_person_label(session=session, key=key)
     if person is None:
         raise HTTPException(status_code=404, detail=f"There is no person with the key {key}.")
     names = [m for m in MEASURES if _directed(slice) or m not in DIRECTED_MEASURES]
-    outcomes = _outcomes(database, [(m, {}) for m in names], slice)
-    n = outcomes[0].payload["n"]
+    cheap = [m for m in names if m in CHEAP]
+    found = dict(zip(cheap, _outcomes(database, [(m, {}) for m in cheap], slice)))
+    n = found[cheap[0]].payload["n"]
+    others = [m for m in names if m not in found]
+    computing: list[str] = []
+    if n <= inline_up_to:
+        found.update(zip(others, _outcomes(database, [(m, {}) for m in others], slice)))
+    for measure in (m for m in others if m not in found):
+        exact = {"exact": True} if measure in SAMPLED else {}
+        result = peek_outcome(database, measure=measure, slice=slice, options=exact, visibility=request_visibility())
+        if result is None:
+            result = _background(database, worker, measure, exact, slice, requested_by, inline_up_to)
+        if isinstance(result, Pending):  # meanwhile a stored estimate, if any
+            result = peek_outcome(database, measure=measure, slice=slice, options={}, visibility=request_visibility())
+        if result is None:
+            computing.append(MEASURE_INFO[measure].label)
+        else:
+            found[measure] = result
     rows: list[PersonMeasureRow] = []
-    for measure, outcome in zip(names, outcomes):
+    for measure, outcome in ((m, found[m]) for m in names if m in found):
         row = next((r for r in outcome.payload["rows"] if r["key"] == person.key), None)
         if row is None:
             continue
@@ -370,7 +421,8 @@ def person_measures_view(*, session: Session, database: Database, key: str, slic
     elif any(r.changes_since for r in rows):
         note = "Some figures were computed before the latest changes to the data: each measure's page can recompute them."
     return PersonMeasures(key=person.key, name=person.name, slice=slice, slice_summary=slice.describe(),
-                          population=mode_population(population_sentence(n, slice.nodes), slice), in_slice=bool(rows), note=note, measures=rows)  # fmt: skip
+                          population=mode_population(population_sentence(n, slice.nodes), slice), in_slice=bool(rows),
+                          note=note, measures=rows, computing=computing)  # fmt: skip
 
 
 # --- CSV tables --------------------------------------------------------------------------------
@@ -462,6 +514,38 @@ def _background(database: Database, worker: Worker | None, measure: str, options
         raise BadParameter(error.parameter, error.value, error.accepted) from error
 
 
+def _larger_side_first(bridge: dict[str, Any]) -> tuple[str, str, list[int]]:
+    """Return a bridge's ends and sides with the end on the larger side first (equal sides: as stored)."""
+    a_side, b_side = bridge["sides"]
+    if b_side > a_side:
+        return bridge["b"], bridge["a"], [b_side, a_side]
+    return bridge["a"], bridge["b"], [a_side, b_side]
+
+
+def _refined(database: Database, worker: Worker | None, measure: str, options: dict[str, Any], slice_: Slice,
+             quick: Outcome, recompute: bool, requested_by: str, inline_up_to: int) -> tuple[Outcome, BackgroundJob | None]:
+    """Return the full result of a large slice if stored (else ``quick``), and the background job that makes it.
+
+    A recompute queues the job again (the quick result was just recomputed); a reload joins the
+    job already queued instead of starting the work again.
+    """
+    if not recompute:
+        stored = peek_outcome(database, measure=measure, slice=slice_, options=options, visibility=request_visibility())
+        if stored is not None:
+            return stored, None
+    if not needs_worker(measure, options, quick.payload["n"], inline_up_to):
+        return _outcome(database, measure, slice_, options, recompute), None
+    if recompute:
+        pending = queue_recompute(database, worker, measure=measure, options=options, slice=slice_,
+                                  requested_by=requested_by, visibility=request_visibility())
+    else:
+        found = _background(database, worker, measure, options, slice_, requested_by, inline_up_to)
+        if not isinstance(found, Pending):
+            return found, None
+        pending = found
+    return quick, _job_view(pending, measure)
+
+
 def _pending_outcome(database: Database, measure: str, slice_: Slice) -> Outcome:
     """Return an empty ranking for a measure still computing; n and freshness come from degree (cheap)."""
     degree = _outcome(database, "degree", slice_, {}, False)
@@ -475,7 +559,8 @@ def job_view(job: JobInfo | None, measure: str, refused: str | None = None) -> B
     """Return what a page shows of a background job."""
     if job is None:
         return BackgroundJob(None, "refused", 0.0, measure, refused or "The job could not be queued.", None, None)
-    label = MEASURE_INFO[job.measure].label if job.measure in MEASURE_INFO else job.measure
+    label = (MEASURE_INFO[job.measure].label if job.measure in MEASURE_INFO else
+             {"summary": "Exact path lengths", "communities": "Stability across seeds"}.get(job.measure, job.measure))
     message = {
         "queued": f"{label}: waiting for the background worker.",
         "running": f"{label}: computing in the background, {job.progress:.0%} done.",
@@ -649,7 +734,7 @@ _SUMMARY = ("The slice at a glance: persons, ties and attestations, density, rec
             "JSON: `/api/network/summary`.")  # fmt: skip
 def summary_page(request: Request, session: SessionDep, database: DatabaseDep, slice: SliceDep,  # noqa: A002
                  format: str | None = _FORMAT, table: str | None = _TABLE) -> Response:  # noqa: A002
-    view = summary_view(session=session, database=database, slice=slice)
+    view = summary_view(session=session, database=database, slice=slice, **_worker_of(request))
     return _respond(request, view, template="network_summary.html", partial="_network_summary.html", fmt=format,
                     table=table, filename="summary")
 
@@ -790,7 +875,7 @@ def communities_page(
     seed: str | None = _SEED, format: str | None = _FORMAT, table: str | None = _TABLE,  # noqa: A002
 ) -> Response:
     view = communities_view(session=session, database=database, slice=slice, method=method, seed=seed,
-                            all_rows=bool(format))
+                            all_rows=bool(format), **_worker_of(request))
     return _respond(request, view, template="network_communities.html", partial="_network_communities.html", fmt=format,
                     table=table, filename=f"communities-{view.method}")
 
@@ -818,9 +903,13 @@ def _recomputed(request: Request, view: str, session: Session, database: Databas
     if view not in BUILDERS:
         raise HTTPException(status_code=404, detail=f"There is no measure page {view}; the pages are {', '.join(VIEWS)}.")
     builder = BUILDERS[view][0]
-    accepted = set(inspect.signature(builder).parameters) - {"session", "database", "slice", "recompute", "all_rows"}
+    parameters = set(inspect.signature(builder).parameters)
+    background = {"worker", "requested_by", "inline_up_to"}
+    accepted = parameters - {"session", "database", "slice", "recompute", "all_rows"} - background
     query: Mapping[str, str] = request.query_params
     options = {name: query.get(name) for name in accepted}
+    if background <= parameters:  # a large slice's heavy measure is queued for the worker, not computed here
+        options.update(_worker_of(request))
     return builder(session=session, database=database, slice=slice_, recompute=True, **options)
 
 
@@ -879,7 +968,7 @@ def job_status_api(request: Request, job_id: int, database: DatabaseDep) -> Resp
             description=_PERSON_MEASURES + " The person page loads it into itself with htmx (an htmx request gets "
             "only the table). JSON: `/api/persons/{key}/measures`.")  # fmt: skip
 def person_measures_page(request: Request, key: str, session: SessionDep, database: DatabaseDep, slice: SliceDep) -> Response:  # noqa: A002
-    view = person_measures_view(session=session, database=database, key=key, slice=slice)
+    view = person_measures_view(session=session, database=database, key=key, slice=slice, **_worker_of(request))
     return render(request, view, template="person_measures.html", partial="_person_measures.html")
 
 

@@ -5,7 +5,7 @@ Every field has a docstring, which the OpenAPI description of the JSON twins sho
 
 from __future__ import annotations
 
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 from datetime import datetime
 
 from app.network.definitions import Definition
@@ -221,6 +221,8 @@ class SummaryPage:
     """Attestations behind the ties from printed sources (outside any collection, not in the shares)."""
     context: PageContext
     """Slice, node set, freshness and the slice form."""
+    job: BackgroundJob | None = None
+    """The background job computing the exact path lengths of a large slice, while it runs or when it failed."""
 
 
 # --- centrality --------------------------------------------------------------------------------
@@ -416,7 +418,7 @@ class BridgeRow:
     b: PersonRef
     """The other end."""
     sides: list[int]
-    """Persons on a's side and on b's side once the tie is gone."""
+    """Persons on a's side and on b's side once the tie is gone; a is the end on the larger side."""
     weight: float
     """The tie's weight in the slice."""
     documents: int | None
@@ -615,6 +617,8 @@ class CommunitiesPage:
     """Why one seed's partition is not a finding."""
     context: PageContext
     """Slice, node set, freshness and the slice form."""
+    job: BackgroundJob | None = None
+    """The background job comparing the seeds of a large slice, while it runs or when it failed."""
 
 
 # --- one person's measures ------------------------------------------------------------------
@@ -672,3 +676,5 @@ class PersonMeasures:
     """Why there are no figures, or what to know about them."""
     measures: list[PersonMeasureRow]
     """One row per centrality the slice gives."""
+    computing: list[str] = field(default_factory=list)
+    """Measures of a large slice still being computed in the background (their rows come when they are ready)."""

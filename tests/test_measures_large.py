@@ -68,3 +68,32 @@ def test_the_graph_from_counts_equals_the_graph_from_every_attestation(world, qu
         got = light[u][v]
         assert (got["weight"], got["attestations"], got["documents"], got["relation_ids"], got["kinds"]) == (
             data["weight"], data["attestations"], data["documents"], data["relation_ids"], data["kinds"])
+
+
+@pytest.mark.parametrize("query", [
+    {}, {"direction": "undirected"}, {"direction": "reciprocal"}, {"loops": "keep", "weight": "attestations"},
+    {"nodes": "all"}, {"min_collections": "2"},
+])
+def test_the_summary_from_arrays_equals_the_summary_of_the_networkx_graph(world, query):  # noqa: F811
+    """The summary page's figures from the slice's arrays against summarize() on the graph of every attestation."""
+    from app.network.results import SliceGraph, compute_result
+    from app.network.slice import Slice, collection_counts, graph_from_evidence, relation_evidence, resolve_slice
+    from app.store.network_labels import list_collection_names
+
+    with world.read() as session:
+        slice_ = Slice.from_query({k: [v] for k, v in query.items()})
+        resolved = resolve_slice(session, slice_)
+        full = graph_from_evidence(session, resolved, relation_evidence(session, resolved))
+        payload = compute_result(session, SliceGraph.build(session, slice_), measure="summary", options={})
+        in_graph = {r for _, _, ids in full.edges(data="relation_ids") for r in ids}
+        counts = collection_counts(session, resolved, in_graph)
+        names = list_collection_names(session=session, ids=[c for c in counts if c is not None])
+    reference = summarize(full)
+    for name in ("persons", "ties", "loops", "directed", "components", "largest_component", "diameter"):
+        assert payload[name] == getattr(reference, name), name
+    for name in ("density", "reciprocity", "transitivity", "average_clustering", "largest_share", "average_path_length"):
+        assert payload[name] == pytest.approx(getattr(reference, name), abs=1e-12), name
+    assert payload["degree_distribution"] == [[d, p] for d, p in reference.degree_distribution.items()]
+    assert payload["attestations"] == (reference.attestations or 0)  # graph_from_evidence carries the attestation ids
+    assert dict(map(tuple, payload["collections"])) == {names[c]: k for c, k in counts.items() if c is not None}
+    assert payload["printed_attestations"] == counts.get(None, 0)

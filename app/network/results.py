@@ -354,23 +354,37 @@ def _centrality(G: nx.Graph, measure: str, slice_: Slice, key_of: dict, options:
 
 
 def _summary(session: Session, graph: SliceGraph, *, exact_paths: bool | None = None) -> dict[str, Any]:
-    G, slice_ = graph.G, graph.slice
-    in_graph = {r for _, _, ids in G.edges(data="relation_ids") for r in ids or ()}
-    per_collection = Counter(collection_counts(session, graph.resolved, in_graph))
-    memberships = G.graph.get("membership_ids", [])  # mode=co-membership or both: their evidence counts too
-    per_collection.update(membership_collection_counts(session, graph.resolved, memberships))
+    slice_ = graph.slice
+    if graph.relations is not None:  # the arrays: the relations behind the ties and their collections
+        relations, ties = graph.relations, graph.ties
+        behind = np.zeros(len(relations), dtype=bool)
+        behind[ties.entry_relation] = True
+        counted = behind[relations.collection_relation]
+        per_collection: Counter = Counter()
+        for collection, count in zip(relations.collection[counted].tolist(), relations.collection_attestations[counted].tolist()):
+            per_collection[None if collection < 0 else collection] += count
+        attestations = int(relations.attestations[behind].sum())
+        measured: nx.Graph | ArcGraph = graph.arcs
+    else:
+        G = graph.G
+        in_graph = {r for _, _, ids in G.edges(data="relation_ids") for r in ids or ()}
+        per_collection = Counter(collection_counts(session, graph.resolved, in_graph))
+        memberships = G.graph.get("membership_ids", [])  # mode=co-membership or both: their evidence counts too
+        per_collection.update(membership_collection_counts(session, graph.resolved, memberships))
+        attestations = sum(graph.attestations[r] for r in in_graph) + G.graph.get("membership_attestations", 0)
+        measured = G
     printed = per_collection.pop(None, 0)
     names = list_collection_names(session=session, ids=list(per_collection))
     counts = {names[c]: count for c, count in per_collection.items()}
-    summary = summarize(G, node_set=slice_.nodes, collection_counts=counts, exact_paths=exact_paths)
+    summary = summarize(measured, node_set=slice_.nodes, collection_counts=counts, exact_paths=exact_paths)
     payload = asdict(summary)
-    payload["attestations"] = sum(graph.attestations[r] for r in in_graph) + G.graph.get("membership_attestations", 0)
+    payload["attestations"] = attestations
     for field in ("degree_distribution", "in_degree_distribution", "out_degree_distribution"):
         if payload[field] is not None:
             payload[field] = [[degree, persons] for degree, persons in payload[field].items()]
     payload["collections"] = sorted(([name, count] for name, count in counts.items()), key=lambda item: (-item[1], item[0]))
     payload["printed_attestations"] = printed
-    payload["n"] = len(G)
+    payload["n"] = len(measured)
     return _finite(payload)
 
 

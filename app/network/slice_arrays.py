@@ -41,6 +41,9 @@ class SliceArrays:
     documents: np.ndarray  # distinct documents (copies folded into their originals)
     pair_relation: np.ndarray  # each distinct (relation, document): the relation's position
     pair_document: np.ndarray
+    collection_relation: np.ndarray  # each (relation, collection) with attestations: the relation's position
+    collection: np.ndarray  # the collection id (-1: a printed source, in no collection)
+    collection_attestations: np.ndarray  # the relation's attestations from that collection
 
     def __len__(self) -> int:
         return len(self.relation)
@@ -93,11 +96,13 @@ def slice_arrays(session: Session, resolved: ResolvedSlice, same_as: dict[int, i
     pairs = _distinct(inverse * span + rows[:, 5])
     pair_relation, pair_document = pairs // span, pairs % span
     documents = np.bincount(pair_relation, minlength=count)
+    collection_span = int(rows[:, 6].max(initial=0)) + 2
+    cells, per_cell = np.unique(inverse * collection_span + rows[:, 6] + 1, return_counts=True)
     a, b = rows[first, 3], rows[first, 4]
     if same_as:
         a, b = _mapped(a, same_as), _mapped(b, same_as)
     arrays = SliceArrays(relation, rows[first, 1], rows[first, 2].astype(bool), a, b, attestations, documents,
-                         pair_relation, pair_document)
+                         pair_relation, pair_document, cells // collection_span, cells % collection_span - 1, per_cell)
     return _kept(arrays, keep) if not keep.all() else arrays
 
 
@@ -159,6 +164,8 @@ def _kept(arrays: SliceArrays, keep: np.ndarray) -> SliceArrays:
     """Return the relations where ``keep`` is true (``min_collections``), pairs renumbered."""
     position = np.cumsum(keep) - 1
     inside = keep[arrays.pair_relation]
+    counted = keep[arrays.collection_relation]
     return SliceArrays(arrays.relation[keep], arrays.kind[keep], arrays.directed[keep], arrays.a[keep], arrays.b[keep],
                        arrays.attestations[keep], arrays.documents[keep], position[arrays.pair_relation[inside]],
-                       arrays.pair_document[inside])
+                       arrays.pair_document[inside], position[arrays.collection_relation[counted]],
+                       arrays.collection[counted], arrays.collection_attestations[counted])

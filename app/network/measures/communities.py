@@ -170,8 +170,11 @@ def communities(
     between = {(int(c // count), int(c % count)): [int(t), float(w)] for c, t, w in zip(cells, link_ties, link_weight)}
     modularity = None
     if connected.number_of_edges():
-        position = {v: i for i, v in enumerate(H.nodes)}
-        modularity = kernels.modularity(H, [[position[v] for v in g] for g in [*numbered, *([v] for v in isolates)]])
+        # The persons without ties add nothing unless they hold loops: then they count, each a community of one.
+        whole = connected if connected.number_of_edges() == H.number_of_edges() else H
+        position = {v: i for i, v in enumerate(whole.nodes)}
+        parts = numbered if whole is connected else [*numbered, *([v] for v in isolates)]
+        modularity = kernels.modularity(whole, [[position[v] for v in g] for g in parts])
     stability = None
     if runs > 1 and len(connected):
         others = [groups] + [partition(connected, method=method, seed=s, engine=engine) for s in range(seed + 1, seed + runs)]

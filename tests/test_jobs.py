@@ -194,3 +194,72 @@ def test_needs_worker_only_for_heavy_measures_on_large_slices():
     assert not network_jobs.needs_worker("pagerank", {}, 10**6, 3000)
     assert not network_jobs.needs_worker("betweenness", {}, 5000, 3000)  # the estimate is inline
     assert network_jobs.needs_worker("betweenness", {"exact": True}, 5000, 3000)
+
+
+def test_a_large_slice_shows_one_seed_at_once_and_its_stability_from_the_worker(florentine_db: Database, settings: Settings):
+    client = TestClient(small_threshold_app(settings))
+    client.get("/api/network/centrality", params={"measure": "degree", **UNDIRECTED})  # the slice's size is now known
+    first = client.get("/api/network/communities", params=UNDIRECTED).json()
+    assert first["stability"] is None and first["job"]["state"] == "queued" and first["job"]["measure"] == "communities"
+    assert sum(c["size"] for c in first["communities"]) == 15 and first["modularity"] > 0
+    assert client.get("/api/network/communities", params=UNDIRECTED).json()["job"]["id"] == first["job"]["id"]  # a reload
+    page = BeautifulSoup(client.get("/network/communities", params=UNDIRECTED).text, "lxml")
+    assert "Stability across seeds: waiting" in page.select_one("#job-status").get_text(" ", strip=True)
+    assert network_jobs.run_next_job(florentine_db).id == first["job"]["id"]
+    done = client.get("/api/network/communities", params=UNDIRECTED).json()
+    assert done["job"] is None and done["stability"]["seeds"] == list(range(10))
+    # the partition of seed 0 is the same in both (Florentine families, Padgett & Ansell 1993, as shipped with networkx)
+    def keys(body: dict) -> list[list[str]]:
+        return [[m["person"]["key"] for m in c["members"]] for c in body["communities"]]
+
+    assert keys(done) == keys(first)
+    groups = [{name for name in FLORENTINE if family_key(name) in members} for members in map(set, keys(done))]
+    assert done["modularity"] == pytest.approx(nx.community.modularity(FLORENTINE, groups), abs=1e-12)
+
+
+def test_a_large_slice_estimates_path_lengths_and_the_worker_makes_them_exact(
+    florentine_db: Database, settings: Settings, monkeypatch,
+):
+    from app.network.measures import summary as summary_module
+
+    monkeypatch.setattr(summary_module, "EXACT_PATHS_UP_TO", 2)  # the 15 families count as a large component here
+    client = TestClient(small_threshold_app(settings))
+    client.get("/api/network/centrality", params={"measure": "degree", **UNDIRECTED})
+    estimate = client.get("/api/network/summary", params=UNDIRECTED).json()
+    assert "estimated" in estimate["conventions"] and estimate["job"]["measure"] == "summary"
+    network_jobs.run_next_job(florentine_db)
+    exact = client.get("/api/network/summary", params=UNDIRECTED).json()
+    assert exact["job"] is None and "estimated" not in exact["conventions"]
+    # networkx as the reference, on the Florentine marriages (Padgett & Ansell 1993, shipped with networkx)
+    assert exact["diameter"] == nx.diameter(FLORENTINE)
+    assert exact["average_path_length"] == pytest.approx(nx.average_shortest_path_length(FLORENTINE), abs=1e-12)
+
+
+def test_the_person_page_and_the_recompute_button_leave_heavy_measures_to_the_worker(
+    florentine_db: Database, settings: Settings,
+):
+    client = TestClient(small_threshold_app(settings))
+    key = family_key("Medici")
+    lazy = client.get(f"/api/persons/{key}/measures", params=UNDIRECTED).json()
+    assert {row["measure"] for row in lazy["measures"]} >= {"degree", "pagerank", "eigenvector"}
+    assert not {row["measure"] for row in lazy["measures"]} & {"closeness", "harmonic", "betweenness"}
+    assert "Closeness" in ", ".join(lazy["computing"])
+    queued = {job.measure for job in jobs_in(florentine_db)}
+    assert queued and queued <= network_jobs.HEAVY
+    fragment = BeautifulSoup(client.get(f"/persons/{key}/measures", params=UNDIRECTED, headers={"HX-Request": "true"}).text, "lxml")
+    assert fragment.select_one(".job-status")["hx-trigger"] == "every 3s"
+    while network_jobs.run_next_job(florentine_db) is not None:
+        pass
+    while (ready := client.get(f"/api/persons/{key}/measures", params=UNDIRECTED).json())["computing"]:
+        assert network_jobs.run_next_job(florentine_db) is not None  # the cap queued the rest on this visit
+    medici = {row["measure"]: row for row in ready["measures"]}
+    assert medici["betweenness"]["raw"] == pytest.approx(47.5)  # Wasserman & Faust 1994 (from memory), networkx 3.6
+    # the recompute button: closeness goes to the worker again, the stored figures stay on the page meanwhile
+    before = len(jobs_in(florentine_db))
+    token = client.get("/api/login").json()["csrf_token"]
+    answer = client.post("/api/network/centrality/recompute", params={"measure": "closeness", **UNDIRECTED},
+                         headers={"X-CSRF-Token": token})
+    assert answer.status_code == 200, answer.text
+    body = answer.json()
+    assert body["job"]["state"] == "queued" and len(body["rows"]) == 15
+    assert len(jobs_in(florentine_db)) == before + 1

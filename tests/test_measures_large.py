@@ -45,18 +45,55 @@ def test_the_summary_says_when_path_lengths_are_estimated():
 
 @pytest.mark.parametrize("query", [
     {}, {"direction": "undirected"}, {"direction": "reciprocal"}, {"loops": "keep", "weight": "attestations"},
-    {"nodes": "all", "weight": "none"}, {"certainty": "certain"},
+    {"nodes": "all", "weight": "none"}, {"certainty": "certain"}, {"nodes": "ties", "loops": "keep"},
+    {"min_collections": "2"}, {"direction": "reciprocal", "loops": "keep", "nodes": "ties"}, {"same_as": "merge"},
 ])
 def test_the_graph_from_counts_equals_the_graph_from_every_attestation(world, query):  # noqa: F811
-    from app.network.slice import Slice, graph_from_evidence, graph_from_totals, relation_evidence, resolve_slice, slice_totals
+    from app.network.results import SliceGraph
+    from app.network.slice import Slice, graph_from_evidence, relation_evidence, resolve_slice
 
     with world.read() as session:
-        resolved = resolve_slice(session, Slice.from_query({k: [v] for k, v in query.items()}))
+        slice_ = Slice.from_query({k: [v] for k, v in query.items()})
+        resolved = resolve_slice(session, slice_)
         full = graph_from_evidence(session, resolved, relation_evidence(session, resolved))
-        light = graph_from_totals(session, resolved, slice_totals(session, resolved))
+        graph = SliceGraph.build(session, slice_)
+        light = graph.G
     assert set(light) == set(full) and set(light.edges) == set(full.edges) and light.is_directed() == full.is_directed()
-    assert full.number_of_edges() > 0
+    assert full.number_of_edges() > 0 or query == {"min_collections": "2"}
+    arcs = graph.arcs  # the arrays the centralities read hold the same ties and weights
+    ends = (lambda u, v: (u, v)) if full.is_directed() else (lambda u, v: (min(u, v), max(u, v)))
+    assert sorted((*ends(arcs.nodes[i], arcs.nodes[j]), w) for i, j, w in zip(arcs.source, arcs.target, arcs.weight)) == sorted(
+        (*ends(u, v), w) for u, v, w in full.edges(data="weight"))
     for u, v, data in full.edges(data=True):
         got = light[u][v]
         assert (got["weight"], got["attestations"], got["documents"], got["relation_ids"], got["kinds"]) == (
             data["weight"], data["attestations"], data["documents"], data["relation_ids"], data["kinds"])
+
+
+@pytest.mark.parametrize("query", [
+    {}, {"direction": "undirected"}, {"direction": "reciprocal"}, {"loops": "keep", "weight": "attestations"},
+    {"nodes": "all"}, {"min_collections": "2"},
+])
+def test_the_summary_from_arrays_equals_the_summary_of_the_networkx_graph(world, query):  # noqa: F811
+    """The summary page's figures from the slice's arrays against summarize() on the graph of every attestation."""
+    from app.network.results import SliceGraph, compute_result
+    from app.network.slice import Slice, collection_counts, graph_from_evidence, relation_evidence, resolve_slice
+    from app.store.network_labels import list_collection_names
+
+    with world.read() as session:
+        slice_ = Slice.from_query({k: [v] for k, v in query.items()})
+        resolved = resolve_slice(session, slice_)
+        full = graph_from_evidence(session, resolved, relation_evidence(session, resolved))
+        payload = compute_result(session, SliceGraph.build(session, slice_), measure="summary", options={})
+        in_graph = {r for _, _, ids in full.edges(data="relation_ids") for r in ids}
+        counts = collection_counts(session, resolved, in_graph)
+        names = list_collection_names(session=session, ids=[c for c in counts if c is not None])
+    reference = summarize(full)
+    for name in ("persons", "ties", "loops", "directed", "components", "largest_component", "diameter"):
+        assert payload[name] == getattr(reference, name), name
+    for name in ("density", "reciprocity", "transitivity", "average_clustering", "largest_share", "average_path_length"):
+        assert payload[name] == pytest.approx(getattr(reference, name), abs=1e-12), name
+    assert payload["degree_distribution"] == [[d, p] for d, p in reference.degree_distribution.items()]
+    assert payload["attestations"] == (reference.attestations or 0)  # graph_from_evidence carries the attestation ids
+    assert dict(map(tuple, payload["collections"])) == {names[c]: k for c, k in counts.items() if c is not None}
+    assert payload["printed_attestations"] == counts.get(None, 0)

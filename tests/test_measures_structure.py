@@ -256,3 +256,68 @@ def test_single_document_bridges_on_a_directed_slice_without_document_ids():
     G.add_edge(2, 3, weight=1.0, documents=1, attestations=1)  # letter 2 -> 3, document c
     flags = {(b.u, b.v): b.single_document for b in cuts(G).bridges}
     assert flags == {(1, 2): False, (2, 3): True}
+
+
+# --- igraph on the slice's arrays, held to networkx ------------------------------------------
+
+
+def weighted_shapes() -> list[nx.Graph]:
+    """Disconnected, directed (with opposite arcs of different weights), weighted, with self-loops."""
+    shapes = []
+    for seed, G in enumerate(random_graphs()):
+        rng = random.Random(100 + seed)
+        for _, _, data in G.edges(data=True):
+            data["weight"] = float(rng.randint(1, 5))
+        G.add_nodes_from([500, 501])  # isolates
+        G.add_edge(600, 601, weight=2.0)  # a separate pair
+        shapes.append(G)
+    return shapes
+
+
+@pytest.mark.parametrize("G", weighted_shapes())
+def test_cut_points_bridges_and_cliques_from_arrays_equal_networkx(G):
+    from app.network.measures.arcs import ArcGraph
+
+    U = nx.Graph(G.to_undirected())
+    U.remove_edges_from(list(nx.selfloop_edges(U)))
+    A = ArcGraph.from_networkx(G)
+    result = cuts(A)
+    assert sorted(c.node for c in result.cut_points) == sorted(nx.articulation_points(U))
+    for cut in result.cut_points:
+        assert cut.pieces == brute_force_pieces(U, cut.node)
+    assert {frozenset((b.u, b.v)) for b in result.bridges} == {frozenset(e) for e in nx.bridges(U)}
+    for bridge in result.bridges:
+        H = U.copy()
+        H.remove_edge(bridge.u, bridge.v)
+        assert bridge.sides == (len(nx.node_connected_component(H, bridge.u)), len(nx.node_connected_component(H, bridge.v)))
+        # the undirected view's weight: the larger of two opposite arcs (conventions.working_graph)
+        assert bridge.weight == max(G[a][b]["weight"] for a, b in ((bridge.u, bridge.v), (bridge.v, bridge.u)) if G.has_edge(a, b))
+    assert [(c.node, c.pieces) for c in result.cut_points] == [(c.node, c.pieces) for c in cuts(G).cut_points]
+    for size in (2, 3, 4):
+        found = cliques(A, min_size=size)
+        assert sorted(c.members for c in found.cliques) == sorted(sorted(c) for c in nx.find_cliques(U) if len(c) >= size)
+        assert found.complete
+
+
+@pytest.mark.parametrize("G", weighted_shapes())
+@pytest.mark.parametrize("loops", ["drop", "keep"])
+def test_communities_from_arrays_reach_networkx_modularity(G, loops):
+    """Compared by modularity (networkx's ``community.modularity``), never by identical partitions."""
+    from app.network.measures.arcs import ArcGraph
+    from app.network.measures.communities import communities
+
+    U = nx.Graph()
+    U.add_nodes_from(G)
+    for u, v, w in G.edges(data="weight"):
+        if u == v and loops == "drop":
+            continue
+        U.add_edge(u, v, weight=max(w, U[u][v]["weight"]) if U.has_edge(u, v) else w)
+    A = ArcGraph.from_networkx(G)
+    for method in ("leiden", "louvain"):
+        result = communities(A, method=method, loops=loops, runs=3)
+        groups = [set(c.members) for c in result.communities] + [{v} for v in result.isolates]
+        assert sorted(v for g in groups for v in g) == sorted(G)
+        assert result.modularity == pytest.approx(nx.community.modularity(U, groups, weight="weight"), abs=1e-9)
+        reference = nx.community.louvain_communities(U, weight="weight", seed=0)
+        assert result.modularity == pytest.approx(nx.community.modularity(U, reference, weight="weight"), abs=0.05)
+        assert {500, 501} <= set(result.isolates) and result.membership[600] == result.membership[601]

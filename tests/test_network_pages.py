@@ -133,6 +133,48 @@ def test_florentine_cut_points_and_bridges(florentine):
     assert len(page.select(".bridges-table .tag-flag")) == 5
 
 
+def bridge_tables() -> dict[str, list[dict[str, str]]]:
+    """A hand-built slice: letters both ways among a, b, c; c and d married (one register entry); d and e
+    married (two entries); e wrote to f and f to e (one letter each)."""
+    people = "abcdef"
+    relations = [("a", "b", "letter"), ("b", "a", "letter"), ("b", "c", "letter"), ("c", "b", "letter"),
+                 ("a", "c", "letter"), ("c", "a", "letter"), ("c", "d", "spouse"), ("d", "e", "spouse"),
+                 ("d", "e", "spouse"), ("e", "f", "letter"), ("f", "e", "letter")]
+    return {
+        "relation_kinds.csv": [{"key": "spouse", "label": "spouse", "directed": "no"},
+                               {"key": "letter", "label": "letter", "directed": "yes"}],
+        "persons.csv": [{"key": f"p-{p}", "name": f"Person {p.upper()}"} for p in people],
+        "sources.csv": [{"key": f"s-{i}", "kind": "register" if kind == "spouse" else "letter", "title": f"Source {i}",
+                         "date": "1650"} for i, (_, _, kind) in enumerate(relations)],
+        "relations.csv": [{"person": f"p-{a}", "other": f"p-{b}", "kind": kind, "source": f"s-{i}"}
+                          for i, (a, b, kind) in enumerate(relations)],
+    }  # fmt: skip
+
+
+@pytest.mark.parametrize("direction", ["recorded", "undirected", "reciprocal"])
+def test_single_document_bridges_in_every_direction_mode(tmp_path: Path, database: Database, settings: Settings, direction):
+    """Worked by hand: c-d (one register entry) is the only single-document bridge, whatever the direction mode;
+    an undirected kind drawn both ways under direction=recorded is still one relation and one document."""
+    import_workbook(database, write_workbook(tmp_path / "bridges", bridge_tables()), size_limit=10**9)
+    client = TestClient(create_app(settings))
+    params = {} if direction == "recorded" else {"direction": direction}
+    body = client.get("/api/network/cut-points", params=params).json()
+    rows = [(row["a"]["key"], row["b"]["key"], row["sides"], row["documents"], row["single_document"]) for row in body["bridges"]]
+    assert rows == [("p-c", "p-d", [3, 3], 1, True), ("p-d", "p-e", [4, 2], 2, False), ("p-e", "p-f", [5, 1], 2, False)]
+    assert [(row["person"]["key"], row["pieces"]) for row in body["cut_points"]] == [
+        ("p-c", [3, 2]), ("p-d", [3, 2]), ("p-e", [4, 1])]
+    assert body["single_document_bridges"] == 1
+    page = soup_of(client.get("/network/cut-points", params=params))
+    assert page.select_one("#bridges-heading").get_text(strip=True) == "Bridges (3)"
+    table = page.select(".bridges-table tbody tr")
+    assert len(table) == 3 and [tr.get("class") for tr in table] == [["single-document"], None, None]
+    assert len(page.select(".bridges-table .tag-flag")) == 1
+    assert "1 rest on a single document" in page.select_one("#bridges-heading").find_next("p").get_text(" ", strip=True)
+    assert [td.get_text() for td in page.select(".bridges-table td.sides")] == ["3\xa0|\xa03", "4\xa0|\xa02", "5\xa0|\xa01"]
+    csv_rows = client.get("/network/cut-points", params={**params, "format": "csv", "table": "bridges"}).text.splitlines()
+    assert [line.split(",")[4:6] for line in csv_rows[1:]] == [["3", "3"], ["4", "2"], ["5", "1"]]
+
+
 def test_an_isolate_changes_n_but_not_raw_betweenness_and_stale_results_wait_for_a_recompute(florentine):
     client, database, tmp_path = florentine
     params = {"measure": "betweenness", "direction": "undirected"}

@@ -39,10 +39,13 @@ from app.store.jobs import (
 )
 from app.store.measure_results import get_slice_size
 
-__all__ = ["HEAVY", "INLINE_UP_TO", "QUEUE_CAP", "Pending", "Worker", "current_job", "outcome_or_job", "run_next_job", "worker_loop"]
+__all__ = ["HEAVY", "INLINE_UP_TO", "QUEUE_CAP", "Pending", "Worker", "current_job", "needs_worker", "outcome_or_job",
+           "queue_recompute", "run_next_job", "slice_size", "worker_loop"]
 
-HEAVY = frozenset({"closeness", "weighted_closeness", "harmonic", "betweenness", "weighted_betweenness"})
-"""Measures computed in the background on a large slice (betweenness only when exact)."""
+HEAVY = frozenset({"closeness", "weighted_closeness", "harmonic", "betweenness", "weighted_betweenness", "communities",
+                   "summary"})
+"""Measures computed in the background on a large slice: betweenness only when exact, communities with
+their stability across seeds (one seed is computed at once), the summary with exact path lengths."""
 INLINE_UP_TO = 3000
 """Slices of at most this many persons are computed by the request itself."""
 QUEUE_CAP = 3
@@ -67,9 +70,17 @@ def needs_worker(measure: str, options: dict, persons: int, inline_up_to: int = 
     (True, False, False)
     >>> needs_worker("betweenness", {"exact": True}, 20_000), needs_worker("closeness", {}, 500)
     (True, False)
+    >>> needs_worker("communities", {"seed": 0}, 20_000), needs_worker("communities", {"runs": 1}, 20_000)
+    (True, False)
+    >>> needs_worker("summary", {}, 20_000), needs_worker("summary", {"exact_paths": True}, 20_000)
+    (False, True)
     """
     if measure not in HEAVY or persons <= inline_up_to:
         return False
+    if measure == "communities":
+        return options.get("runs") != 1
+    if measure == "summary":
+        return bool(options.get("exact_paths"))
     return measure not in ("betweenness", "weighted_betweenness") or bool(options.get("exact"))
 
 
@@ -90,15 +101,30 @@ def outcome_or_job(
         persons = get_slice_size(session=session, slice_key=key, visibility=visibility)
     if not needs_worker(measure, options, persons, inline_up_to):
         return get_or_compute(database, measure=measure, slice=slice, options=options, visibility=visibility)
+    return queue_recompute(database, worker, measure=measure, options=options, slice=slice, requested_by=requested_by,
+                           visibility=visibility)
+
+
+def queue_recompute(
+    database: Database, worker: Worker | None, *, measure: str, options: dict, slice: Slice,  # noqa: A002
+    requested_by: str, visibility: str = VISIBILITY_ALL,
+) -> Pending:
+    """Queue (or join) the job that recomputes a result, whatever is stored: the recompute button on a large slice."""
     with database.write() as session:
         from app.store.summary import get_data_version
 
-        request = request_job(session=session, measure=measure, options=options_key(options), slice_key=key,
+        request = request_job(session=session, measure=measure, options=options_key(options), slice_key=slice_key(slice),
                               visibility=visibility, data_version=get_data_version(session=session),
                               requested_by=requested_by, cap=QUEUE_CAP)
     if worker is not None and request.job is not None:
         worker.ensure_running()
     return Pending(request.job, request.refused)
+
+
+def slice_size(database: Database, slice: Slice, visibility: str = VISIBILITY_ALL) -> int:  # noqa: A002
+    """Return the persons of a slice as its latest stored result says, else every person (an upper bound)."""
+    with database.read() as session:
+        return get_slice_size(session=session, slice_key=slice_key(slice), visibility=visibility)
 
 
 def latest_job(database: Database, *, measure: str, options: dict, slice: Slice, visibility: str = VISIBILITY_ALL) -> JobInfo | None:  # noqa: A002

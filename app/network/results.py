@@ -34,23 +34,15 @@ from app.db import Database
 from app.network.comembership import PROJECTION_CLIQUE_LIMIT, co_membership_graph, membership_collection_counts, mode_conventions, mode_population
 from app.network.measures.cliques import CLIQUE_LIMIT
 from app.network.measures import MEASURES, cliques, communities, components, compute, cuts, summarize
+from app.network.measures.communities import STABILITY_RUNS
+from app.network.measures.cuts import TieRecord
 from app.network.measures.results import MeasureError
 from app.network.measures.arcs import ArcGraph
-from app.network.same_as import merge_nodes, merge_rows, same_as_mapping
-from app.network.slice import (
-    ResolvedSlice,
-    Slice,
-    arc_counts,
-    collection_counts,
-    graph_from_totals,
-    node_set,
-    resolve_slice,
-    slice_totals,
-    tie_arcs,
-    tie_weight,
-)
+from app.network.same_as import merge_nodes, same_as_mapping
+from app.network.slice import ResolvedSlice, Slice, collection_counts, node_set_of, resolve_slice
+from app.network.slice_arrays import SliceArrays, TieArrays, slice_arrays, tie_arrays
 from app.store.measure_results import get_stored_result, save_result
-from app.store.network_labels import list_collection_names, list_person_labels
+from app.store.network_labels import list_collection_names, list_person_keys
 from app.store.summary import get_data_version
 
 __all__ = [
@@ -243,6 +235,8 @@ class SliceGraph:
     seconds: float  # time taken to read the evidence and build the graph
     arcs: ArcGraph
     make_graph: Callable[[], nx.Graph]
+    relations: SliceArrays | None = None  # the relations behind the ties (None for a co-membership graph)
+    ties: TieArrays | None = None  # tie k is arc k of ``arcs``, with its counts
     _built: dict[str, nx.Graph] = field(default_factory=dict, compare=False, repr=False)
 
     @property
@@ -254,26 +248,29 @@ class SliceGraph:
 
     @classmethod
     def build(cls, session: Session, slice_: Slice) -> SliceGraph:
-        """Read the slice's relations, counted in SQL, and build its graph (SliceError for an unknown key)."""
+        """Read the slice's relations and build its graph as arrays (SliceError for an unknown key).
+
+        One plain read of the evidence, counted in numpy (``app.network.slice_arrays``): no
+        Python object per relation or per tie, and only the persons' keys, not their labels.
+        """
         if slice_.mode != "relations":
             return cls.from_co_membership(session, slice_)
         started = time.perf_counter()
         resolved = resolve_slice(session, slice_)
         same_as = same_as_mapping(session, slice_.same_as)  # persons linked as possibly one, under same_as=merge
-        totals = merge_rows(slice_totals(session, resolved), same_as)
-        arcs, tied = tie_arcs(resolved, totals)
-        nodes = sorted(merge_nodes(node_set(session, resolved, totals, tied), same_as))
-        labels = list_person_labels(session=session, ids=nodes)
-        position = {node: i for i, node in enumerate(nodes)}
-        counts = [arc_counts(rows) for rows in arcs.values()]
-        array_graph = ArcGraph.from_arrays(
-            nodes, [position[u] for u, _ in arcs], [position[v] for _, v in arcs],
-            [tie_weight(attestations, documents, slice_.weight) for attestations, documents in counts],
-            directed=slice_.direction == "recorded",
-        )
-        return cls(slice_, {node: labels[node].key for node in nodes}, resolved,
-                   {row.relation_id: row.attestations for row in totals}, time.perf_counter() - started, array_graph,
-                   lambda: graph_from_totals(None, resolved, totals, arcs=(arcs, tied), nodes=nodes))
+        relations = slice_arrays(session, resolved, same_as)
+        ties = tie_arrays(relations, direction=slice_.direction, loops=slice_.loops)
+        related = set(np.concatenate([relations.a, relations.b]).tolist())
+        tied = set(np.concatenate([relations.a[ties.tied], relations.b[ties.tied]]).tolist())
+        nodes = sorted(merge_nodes(node_set_of(session, resolved, related, tied), same_as))
+        keys = list_person_keys(session=session, ids=nodes)
+        node_array = np.asarray(nodes, dtype=np.int64)
+        weight = {"attestations": ties.attestations, "none": np.ones(len(ties))}.get(slice_.weight, ties.documents)
+        array_graph = ArcGraph.from_arrays(nodes, np.searchsorted(node_array, ties.u), np.searchsorted(node_array, ties.v),
+                                           weight, directed=slice_.direction == "recorded")
+        return cls(slice_, {node: keys[node] for node in nodes}, resolved,
+                   dict(zip(relations.relation.tolist(), relations.attestations.tolist())), time.perf_counter() - started,
+                   array_graph, lambda: _graph_of(array_graph, relations, ties), relations, ties)
 
     @classmethod
     def from_co_membership(cls, session: Session, slice_: Slice) -> SliceGraph:
@@ -282,10 +279,25 @@ class SliceGraph:
         relations = cls.build(session, slice_.with_(mode="relations")) if slice_.mode == "both" else None
         resolved = resolve_slice(session, slice_)
         G = co_membership_graph(session, resolved, relations=relations.G if relations else None)
-        labels = list_person_labels(session=session, ids=list(G))
-        return cls(slice_, {node: labels[node].key for node in G}, resolved,
+        keys = list_person_keys(session=session, ids=list(G))
+        return cls(slice_, {node: keys[node] for node in G}, resolved,
                    relations.attestations if relations else {}, time.perf_counter() - started,
                    ArcGraph.from_networkx(G), lambda: G)
+
+
+def _graph_of(arcs: ArcGraph, relations: SliceArrays, ties: TieArrays) -> nx.Graph:
+    """Return the networkx graph of the slice (``graph_from_evidence``'s edges, without attestation or document ids)."""
+    G: nx.Graph = nx.DiGraph() if arcs.directed else nx.Graph()
+    G.add_nodes_from(arcs.nodes)
+    starts = np.searchsorted(ties.entry_tie, np.arange(len(ties) + 1)).tolist()
+    relation_ids, kinds = relations.relation[ties.entry_relation].tolist(), relations.kind[ties.entry_relation].tolist()
+    G.add_edges_from(
+        (u, v, {"weight": w, "attestations": a, "documents": d, "relation_ids": sorted(relation_ids[s:e]),
+                "kinds": sorted(set(kinds[s:e]))})
+        for u, v, w, a, d, s, e in zip(ties.u.tolist(), ties.v.tolist(), arcs.weight.tolist(), ties.attestations.tolist(),
+                                       ties.documents.tolist(), starts[:-1], starts[1:])
+    )
+    return G
 
 
 def compute_result(session: Session, graph: SliceGraph, *, measure: str, options: dict[str, Any]) -> dict[str, Any]:
@@ -299,15 +311,15 @@ def compute_result(session: Session, graph: SliceGraph, *, measure: str, options
 def _compute(session: Session, graph: SliceGraph, *, measure: str, options: dict[str, Any]) -> dict[str, Any]:
     slice_, key_of = graph.slice, graph.key_of
     if measure == "summary":
-        return _with_mode(_summary(session, graph), slice_)
+        return _with_mode(_summary(session, graph, exact_paths=True if options.get("exact_paths") else None), slice_)
     if measure == "components":
         return _with_mode(_components(graph.arcs, slice_, key_of), slice_)
     if measure == "cut-points":
-        return _with_mode(_cuts(graph.G, slice_, key_of), slice_)
+        return _with_mode(_cuts(graph, slice_, key_of), slice_)
     if measure == "cliques":
-        payload = _cliques(graph.G, slice_, key_of, options)
+        payload = _cliques(graph.arcs, slice_, key_of, options)
     elif measure == "communities":
-        payload = _communities(graph.G, slice_, key_of, options)
+        payload = _communities(graph.arcs, slice_, key_of, options)
     else:
         payload = _centrality(graph.arcs, measure, slice_, key_of, options)
     return _with_mode(payload, slice_)
@@ -341,24 +353,38 @@ def _centrality(G: nx.Graph, measure: str, slice_: Slice, key_of: dict, options:
             "sampling": sampling, "rows": rows}
 
 
-def _summary(session: Session, graph: SliceGraph) -> dict[str, Any]:
-    G, slice_ = graph.G, graph.slice
-    in_graph = {r for _, _, ids in G.edges(data="relation_ids") for r in ids or ()}
-    per_collection = Counter(collection_counts(session, graph.resolved, in_graph))
-    memberships = G.graph.get("membership_ids", [])  # mode=co-membership or both: their evidence counts too
-    per_collection.update(membership_collection_counts(session, graph.resolved, memberships))
+def _summary(session: Session, graph: SliceGraph, *, exact_paths: bool | None = None) -> dict[str, Any]:
+    slice_ = graph.slice
+    if graph.relations is not None:  # the arrays: the relations behind the ties and their collections
+        relations, ties = graph.relations, graph.ties
+        behind = np.zeros(len(relations), dtype=bool)
+        behind[ties.entry_relation] = True
+        counted = behind[relations.collection_relation]
+        per_collection: Counter = Counter()
+        for collection, count in zip(relations.collection[counted].tolist(), relations.collection_attestations[counted].tolist()):
+            per_collection[None if collection < 0 else collection] += count
+        attestations = int(relations.attestations[behind].sum())
+        measured: nx.Graph | ArcGraph = graph.arcs
+    else:
+        G = graph.G
+        in_graph = {r for _, _, ids in G.edges(data="relation_ids") for r in ids or ()}
+        per_collection = Counter(collection_counts(session, graph.resolved, in_graph))
+        memberships = G.graph.get("membership_ids", [])  # mode=co-membership or both: their evidence counts too
+        per_collection.update(membership_collection_counts(session, graph.resolved, memberships))
+        attestations = sum(graph.attestations[r] for r in in_graph) + G.graph.get("membership_attestations", 0)
+        measured = G
     printed = per_collection.pop(None, 0)
     names = list_collection_names(session=session, ids=list(per_collection))
     counts = {names[c]: count for c, count in per_collection.items()}
-    summary = summarize(G, node_set=slice_.nodes, collection_counts=counts)
+    summary = summarize(measured, node_set=slice_.nodes, collection_counts=counts, exact_paths=exact_paths)
     payload = asdict(summary)
-    payload["attestations"] = sum(graph.attestations[r] for r in in_graph) + G.graph.get("membership_attestations", 0)
+    payload["attestations"] = attestations
     for field in ("degree_distribution", "in_degree_distribution", "out_degree_distribution"):
         if payload[field] is not None:
             payload[field] = [[degree, persons] for degree, persons in payload[field].items()]
     payload["collections"] = sorted(([name, count] for name, count in counts.items()), key=lambda item: (-item[1], item[0]))
     payload["printed_attestations"] = printed
-    payload["n"] = len(G)
+    payload["n"] = len(measured)
     return _finite(payload)
 
 
@@ -374,8 +400,13 @@ def _components(G: nx.Graph, slice_: Slice, key_of: dict) -> dict[str, Any]:
             "conventions": result.conventions}
 
 
-def _cuts(G: nx.Graph, slice_: Slice, key_of: dict) -> dict[str, Any]:
-    result = cuts(G, node_set=slice_.nodes)
+def _cuts(graph: SliceGraph, slice_: Slice, key_of: dict) -> dict[str, Any]:
+    if graph.relations is None:  # a co-membership graph: its edges carry the evidence
+        G = graph.G
+        result = cuts(G, node_set=slice_.nodes)
+    else:
+        G = graph.arcs
+        result = cuts(G, node_set=slice_.nodes, evidence=_tie_records(graph))
     return {
         "n": len(G), "directed": G.is_directed(), "conventions": result.conventions,
         "cut_points": [{"key": key_of[c.node], "pieces": c.pieces, "component_size": c.component_size,
@@ -384,6 +415,32 @@ def _cuts(G: nx.Graph, slice_: Slice, key_of: dict) -> dict[str, Any]:
                      "documents": b.documents, "attestations": b.attestations, "relation_ids": b.relation_ids,
                      "single_document": b.single_document} for b in result.bridges],
     }  # fmt: skip
+
+
+def _tie_records(graph: SliceGraph) -> Callable[[int, int], TieRecord]:
+    """Return what the slice holds about the tie between two persons, both directions together.
+
+    The relations behind the tie (or behind its two arcs on a directed slice) with their
+    attestations and their documents, each document counted once: an undirected kind such as
+    marriage, drawn as two arcs under ``direction=recorded``, is one relation and its documents.
+    """
+    relations, ties, arcs = graph.relations, graph.ties, graph.arcs
+    assert relations is not None and ties is not None
+    span = int(max(ties.u.max(initial=0), ties.v.max(initial=0))) + 1
+    keys = ties.u * span + ties.v
+
+    def record(u: int, v: int) -> TieRecord:
+        found = [int(t) for t in np.searchsorted(keys, [u * span + v, v * span + u]) if t < len(keys)]
+        found = [t for t in found if (int(ties.u[t]), int(ties.v[t])) in ((u, v), (v, u))]
+        behind = np.unique(np.concatenate([ties.relations_of(t) for t in found]))
+        starts = np.searchsorted(relations.pair_relation, behind)
+        ends = np.searchsorted(relations.pair_relation, behind + 1)
+        documents = len(set(np.concatenate([relations.pair_document[a:b] for a, b in zip(starts, ends)]).tolist()))
+        return TieRecord(weight=float(max(arcs.weight[t] for t in found)), documents=documents,
+                         attestations=int(relations.attestations[behind].sum()), attestation_ids=[],
+                         relation_ids=relations.relation[behind].tolist(), single_document=documents == 1)
+
+    return record
 
 
 def _cliques(G: nx.Graph, slice_: Slice, key_of: dict, options: dict[str, Any]) -> dict[str, Any]:
@@ -399,7 +456,7 @@ def _cliques(G: nx.Graph, slice_: Slice, key_of: dict, options: dict[str, Any]) 
 
 def _communities(G: nx.Graph, slice_: Slice, key_of: dict, options: dict[str, Any]) -> dict[str, Any]:
     result = communities(G, method=options.get("method", "leiden"), seed=options.get("seed", 0),
-                         loops=slice_.loops, node_set=slice_.nodes)
+                         loops=slice_.loops, node_set=slice_.nodes, runs=options.get("runs", STABILITY_RUNS))
     stability = None
     if result.stability is not None:
         s = result.stability

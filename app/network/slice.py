@@ -35,18 +35,17 @@ __all__ = [
     "SliceTotal",
     "TieEvidence",
     "build_graph",
+    "evidence_query",
     "collection_counts",
-    "arc_counts",
-    "graph_from_totals",
     "node_set",
     "needs_sources",
+    "node_set_of",
     "neighbour_totals",
     "neighbours",
     "relation_evidence",
     "relation_totals",
     "resolve_slice",
     "slice_totals",
-    "tie_arcs",
     "ties_from_evidence",
 ]
 
@@ -371,7 +370,7 @@ def _document(resolved: ResolvedSlice) -> Any:
     return case((Attestation.source_id.in_(copies), original), else_=Attestation.source_id)
 
 
-def _evidence_query(
+def evidence_query(
     resolved: ResolvedSlice, columns: list[Any], persons: Iterable[int] | None, both_ends: bool, *, sources: bool = True
 ) -> Any:
     """Return the SELECT of relation attestations kept by the slice, with the given columns.
@@ -424,7 +423,7 @@ def relation_evidence(
         Attestation.id, Relation.id, Relation.kind_id, Relation.kind_directed, Relation.person_a_id,
         Relation.person_b_id, func.coalesce(Source.copy_of_id, Source.id), Source.collection_id,
     ]
-    query = _evidence_query(resolved, columns, persons, both_ends)
+    query = evidence_query(resolved, columns, persons, both_ends)
     # Core execution: the ORM's row processing costs a third more on large neighbourhoods.
     rows = [EvidenceRow(*row) for row in session.connection().execute(query).all()]
     if resolved.slice.min_collections > 1:
@@ -455,7 +454,7 @@ def relation_totals(session: Session, resolved: ResolvedSlice, *, persons: Itera
         Relation.id, Relation.kind_id, Relation.kind_directed, Relation.person_a_id, Relation.person_b_id,
         func.count(Attestation.id), func.count(document.distinct()),
     ]
-    query = _evidence_query(resolved, columns, persons, False, sources=False).group_by(Relation.id)
+    query = evidence_query(resolved, columns, persons, False, sources=False).group_by(Relation.id)
     if resolved.slice.min_collections > 1:
         query = query.having(func.count(Source.collection_id.distinct()) >= resolved.slice.min_collections)
     return [RelationTotal(*row) for row in session.connection().execute(query).all()]
@@ -482,7 +481,7 @@ def neighbour_totals(session: Session, resolved: ResolvedSlice, *, persons: Iter
     ids = sorted(set(persons))
     columns = [Relation.person_a_id.label("a"), Relation.person_b_id.label("b"),
                func.count(Attestation.id).label("attestations"), func.count(_document(resolved).distinct()).label("documents")]
-    per_relation = _evidence_query(resolved, columns, ids, False, sources=False).group_by(Relation.id)
+    per_relation = evidence_query(resolved, columns, ids, False, sources=False).group_by(Relation.id)
     if resolved.slice.min_collections > 1:
         per_relation = per_relation.having(func.count(Source.collection_id.distinct()) >= resolved.slice.min_collections)
     r = per_relation.subquery()
@@ -504,7 +503,7 @@ def neighbours(session: Session, resolved: ResolvedSlice, *, persons: Iterable[i
     if resolved.slice.min_collections > 1:  # counted per relation
         return {row.person for row in neighbour_totals(session, resolved, persons=ids)}
     other = case((Relation.person_a_id.in_(ids), Relation.person_b_id), else_=Relation.person_a_id)
-    query = _evidence_query(resolved, [other], ids, False, sources=False).distinct()
+    query = evidence_query(resolved, [other], ids, False, sources=False).distinct()
     return set(session.connection().execute(query).scalars())
 
 
@@ -527,18 +526,18 @@ def slice_totals(
 ) -> list[SliceTotal]:
     """Return every relation the slice keeps with its counts, one row per relation.
 
-    The measure pages build their graph from these (see ``graph_from_totals``): on a slice of
-    200,000 attestations reading one row per relation instead of one per attestation saves
-    seconds, and attestation ids are fetched later only where a page shows them. ``persons``
-    and ``both_ends`` narrow the relations as in ``relation_evidence``. ``document_lists=False``
-    leaves ``document_list`` empty, for callers whose ties never join two relations.
+    The ego network reads its neighbourhood from these: one row per relation, attestation ids
+    fetched later only where a page shows them (the measure pages count the whole slice in
+    numpy instead, see ``app.network.slice_arrays``). ``persons`` and ``both_ends`` narrow the
+    relations as in ``relation_evidence``. ``document_lists=False`` leaves
+    ``document_list`` empty, for callers whose ties never join two relations.
     """
     document = _document(resolved)
     columns = [
         Relation.id, Relation.kind_id, Relation.kind_directed, Relation.person_a_id, Relation.person_b_id,
         func.count(Attestation.id), func.count(document.distinct()), distinct_list(document) if document_lists else literal_column("''"),
     ]
-    query = _evidence_query(resolved, columns, persons, both_ends, sources=False).group_by(Relation.id)
+    query = evidence_query(resolved, columns, persons, both_ends, sources=False).group_by(Relation.id)
     if resolved.slice.min_collections > 1:
         query = query.having(func.count(Source.collection_id.distinct()) >= resolved.slice.min_collections)
     return [SliceTotal(*row) for row in session.connection().execute(query).all()]
@@ -547,7 +546,7 @@ def slice_totals(
 def collection_counts(session: Session, resolved: ResolvedSlice, relation_ids: set[int]) -> dict[int | None, int]:
     """Return the slice's attestations of the given relations per collection (None: printed sources)."""
     columns = [Relation.id, Source.collection_id, func.count(Attestation.id)]
-    query = _evidence_query(resolved, columns, None, False).group_by(Relation.id, Source.collection_id)
+    query = evidence_query(resolved, columns, None, False).group_by(Relation.id, Source.collection_id)
     counts: dict[int | None, int] = defaultdict(int)
     for relation_id, collection_id, count in session.connection().execute(query).all():
         if relation_id in relation_ids:
@@ -659,77 +658,18 @@ def graph_from_evidence(session: Session, resolved: ResolvedSlice, rows: list[Ev
     return G
 
 
-def tie_arcs(resolved: ResolvedSlice, totals: list[SliceTotal]) -> tuple[dict[tuple[int, int], list[SliceTotal]], list[SliceTotal]]:
-    """Return the arcs of the slice's graph, each with the relations behind it, and the relations kept.
-
-    The rules of ``graph_from_evidence``: under ``direction=recorded`` an arc per direction (an
-    undirected kind both ways), otherwise a tie per pair (smaller id first); ``reciprocal`` keeps
-    a directed relation only when its kind is attested the other way; loops unless ``loops=drop``.
-    """
-    s = resolved.slice
-    directed_view = s.direction == "recorded"
-    tied = totals
-    if s.direction == "reciprocal":
-        directed = {(r.kind_id, r.person_a, r.person_b) for r in totals if r.directed}
-        tied = [r for r in totals if not r.directed or r.person_a == r.person_b or (r.kind_id, r.person_b, r.person_a) in directed]
-    arcs: dict[tuple[int, int], list[SliceTotal]] = defaultdict(list)
-    for row in tied:
-        a, b = row.person_a, row.person_b
-        if a == b and s.loops == "drop":
-            continue
-        arcs[(a, b) if directed_view or a <= b else (b, a)].append(row)
-        if directed_view and not row.directed and a != b:
-            arcs[(b, a)].append(row)
-    return arcs, tied
-
-
-def arc_counts(rows: list[SliceTotal]) -> tuple[int, int]:
-    """Return the attestations and distinct documents of an arc (the union where it holds several relations)."""
-    if len(rows) == 1:
-        return rows[0].attestations, rows[0].documents
-    return sum(r.attestations for r in rows), len({d for r in rows for d in r.document_list.split(",")})
-
-
-def graph_from_totals(
-    session: Session | None, resolved: ResolvedSlice, totals: list[SliceTotal], *,
-    arcs: tuple[dict[tuple[int, int], list[SliceTotal]], list[SliceTotal]] | None = None, nodes: Iterable[int] | None = None,
-) -> nx.Graph | nx.DiGraph:
-    """Return the graph of the slice from per-relation counts, for the measures.
-
-    The same nodes, edges, ``weight``, ``attestations``, ``documents``, ``relation_ids`` and
-    ``kinds`` as ``graph_from_evidence``, without attestation or document ids: a tie's
-    documents are counted exactly (the union of its relations' documents when it holds several).
-    ``arcs`` (from ``tie_arcs``, on rows already merged under ``same_as``) and ``nodes`` (from
-    ``node_set``) may be given when already made;
-    without ``nodes`` the session reads the node set.
-    """
-    s = resolved.slice
-    same_as = same_as_mapping(session, s.same_as) if session is not None else {}
-    if arcs is None:
-        totals = merge_rows(totals, same_as)
-    by_arc, tied = arcs if arcs is not None else tie_arcs(resolved, totals)
-
-    def edge(u: int, v: int, rows: list[SliceTotal]) -> tuple[int, int, dict[str, Any]]:
-        attestations, documents = arc_counts(rows)
-        if len(rows) == 1:
-            relations, kinds = [rows[0].relation_id], [rows[0].kind_id]
-        else:
-            relations, kinds = sorted({r.relation_id for r in rows}), sorted({r.kind_id for r in rows})
-        return u, v, {"weight": tie_weight(attestations, documents, s.weight), "attestations": attestations,
-                      "documents": documents, "relation_ids": relations, "kinds": kinds}
-
-    G: nx.Graph = nx.DiGraph() if s.direction == "recorded" else nx.Graph()
-    G.add_edges_from(edge(u, v, rows) for (u, v), rows in by_arc.items())
-    G.add_nodes_from(nodes if nodes is not None else merge_nodes(node_set(session, resolved, totals, tied), same_as))  # type: ignore[arg-type]
-    return G
-
-
 def node_set(session: Session, resolved: ResolvedSlice, rows: Sequence[Any], tied: Sequence[Any]) -> set[int]:
     """Return the persons of the node set: with a tie drawn, with any evidence in the slice, or all."""
+    return node_set_of(session, resolved, {p for r in rows for p in (r.person_a, r.person_b)},
+                       {p for r in tied for p in (r.person_a, r.person_b)})
+
+
+def node_set_of(session: Session, resolved: ResolvedSlice, related: set[int], tied: set[int]) -> set[int]:
+    """Return the node set from the persons of the slice's relations and those of the relations kept as ties."""
     s = resolved.slice
     if s.nodes == "ties":
-        return {p for r in tied for p in (r.person_a, r.person_b)}
-    with_ties = {p for r in rows for p in (r.person_a, r.person_b)}
+        return tied
+    with_ties = related
     if s.nodes == "all":
         query = select(Person.id)
         if s.unidentified == "drop":

@@ -23,6 +23,7 @@ __all__ = [
     "PersonLabel",
     "get_person_label",
     "list_archives",
+    "list_person_keys",
     "list_collection_names",
     "list_person_labels",
     "list_person_labels_by_key",
@@ -109,6 +110,18 @@ def list_person_labels(*, session: Session, ids: Iterable[int]) -> dict[int, Per
         query = select(*_LABEL_COLUMNS).where(Person.id.in_(wanted[start : start + 500]))
         found.update((row.id, row) for row in session.execute(query))
     return _told_apart(found)
+
+
+def list_person_keys(*, session: Session, ids: Iterable[int]) -> dict[int, str]:
+    """Return the key of every person of ``ids``, keyed by id (a large set is read in one pass over the persons)."""
+    wanted = set(ids)
+    if len(wanted) > 5000:
+        return {ident: key for ident, key in session.execute(select(Person.id, Person.key)) if ident in wanted}
+    found: dict[int, str] = {}
+    ordered = sorted(wanted)
+    for start in range(0, len(ordered), 500):  # stays under SQLite's limit of bound parameters
+        found.update(session.execute(select(Person.id, Person.key).where(Person.id.in_(ordered[start : start + 500]))).all())
+    return found
 
 
 def list_person_labels_by_key(*, session: Session, keys: Iterable[str]) -> dict[str, PersonLabel]:

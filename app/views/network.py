@@ -30,8 +30,8 @@ from app.network.measures.communities import METHODS
 from app.network.measures.conventions import population_sentence
 from app.network.measures.results import MeasureError
 from app.auth import CsrfChecked, ReaderActor, request_visibility
-from app.network.jobs import INLINE_UP_TO, Pending, Worker, current_job, needs_worker, outcome_or_job
-from app.network.results import SAMPLED, Outcome, get_or_compute_many, peek_outcome
+from app.network.jobs import INLINE_UP_TO, Pending, Worker, current_job, needs_worker, outcome_or_job, queue_recompute, slice_size
+from app.network.results import CHEAP, SAMPLED, Outcome, get_or_compute_many, peek_outcome
 from app.network.measures.summary import small_slice_warning
 from app.network.slice import Slice
 from app.store.jobs import JobInfo
@@ -94,6 +94,10 @@ VIEWS = ("summary", "centrality", "components", "cut-points", "cliques", "commun
 SORTS = {"rank": "asc", "name": "asc", "value": "desc", "raw": "desc"}
 """Columns of the ranked table that can be sorted, with their first order."""
 PAGE_SIZE = 500
+ROWS_SHOWN = 300
+"""Groups (components, cliques) and persons (isolates, per person) listed on a page; the CSV holds all."""
+MEMBERS_SHOWN = 60
+"""Members listed of each component, clique or community on a page; the CSV holds all."""
 """Rows of a ranked table per page (the CSV download holds them all)."""
 MAX_SEED = 2**31 - 1
 EMPTY_NOTE = ("No person is in this slice, so there is nothing to measure. The slice keeps no evidence: widen it "
@@ -141,9 +145,20 @@ def network_index(*, session: Session, slice: Slice) -> NetworkIndex:  # noqa: A
                         controls=slice_controls(session=session, slice=slice))  # fmt: skip
 
 
-def summary_view(*, session: Session, database: Database, slice: Slice, recompute: bool = False) -> SummaryPage:  # noqa: A002
-    """Return the summary page of ``slice``."""
+def summary_view(
+    *, session: Session, database: Database, slice: Slice, recompute: bool = False, worker: Worker | None = None,  # noqa: A002
+    requested_by: str = "anonymous", inline_up_to: int = INLINE_UP_TO,
+) -> SummaryPage:
+    """Return the summary page of ``slice``.
+
+    On a large slice the path lengths are first estimated from sampled persons; the exact ones
+    are computed by the background worker and replace the estimate once stored.
+    """
     outcome = _outcome(database, "summary", slice, {}, recompute)
+    job = None
+    if outcome.payload.get("path_sources"):
+        outcome, job = _refined(database, worker, "summary", {"exact_paths": True}, slice, outcome, recompute, requested_by,
+                                inline_up_to)
     p = outcome.payload
     distribution = _degrees(p["degree_distribution"])
     counted = sum(count for _, count in p["collections"])
@@ -165,6 +180,7 @@ def summary_view(*, session: Session, database: Database, slice: Slice, recomput
         printed_attestations=p["printed_attestations"],
         context=_context(session, "summary", slice, outcome, [],
                          ["figures", "degrees", *(["in_degrees", "out_degrees"] if p["directed"] else []), "collections"]),
+        job=job,
     )  # fmt: skip
 
 
@@ -184,7 +200,12 @@ def centrality_view(
     wants_exact = _yes_no("exact", exact)
     options = {"exact": True} if wants_exact and measure in SAMPLED else {}
     job: BackgroundJob | None = None
-    if recompute:
+    if recompute and needs_worker(measure, options, slice_size(database, slice, request_visibility()), inline_up_to):
+        job = _job_view(queue_recompute(database, worker, measure=measure, options=options, slice=slice,
+                                        requested_by=requested_by, visibility=request_visibility()), measure)
+        stored = peek_outcome(database, measure=measure, slice=slice, options=options, visibility=request_visibility())
+        outcome = stored if stored is not None else _pending_outcome(database, measure, slice)
+    elif recompute:
         outcome = _outcome(database, measure, slice, options, recompute)
     else:
         found = _background(database, worker, measure, options, slice, requested_by, inline_up_to)
@@ -239,21 +260,26 @@ def centrality_view(
     )  # fmt: skip
 
 
-def components_view(*, session: Session, database: Database, slice: Slice, recompute: bool = False) -> ComponentsPage:  # noqa: A002
-    """Return every component of ``slice``."""
+def components_view(*, session: Session, database: Database, slice: Slice, recompute: bool = False,  # noqa: A002
+                    all_rows: bool = False) -> ComponentsPage:
+    """Return every component of ``slice`` (the first ``ROWS_SHOWN``, with ``MEMBERS_SHOWN`` members each, unless ``all_rows``)."""
     outcome = _outcome(database, "components", slice, {}, recompute)
     p = outcome.payload
-    people = _people(session, [key for c in p["components"] for key in c["members"]])
+    rows, members = (None, None) if all_rows else (ROWS_SHOWN, MEMBERS_SHOWN)
+    parts = {"components": p["components"][:rows], "strong": (p["strong"] or [])[:rows]}
+    isolates = p["isolates"][:rows]
+    people = _people(session, [k for listed in parts.values() for c in listed for k in c["members"][:members]] + isolates)
 
-    def listed(parts: list[dict]) -> list[ComponentRow]:
-        return [ComponentRow(c["number"], c["size"], c["ties"], [people[k] for k in c["members"]]) for c in parts]
+    def listed(found: list[dict]) -> list[ComponentRow]:
+        return [ComponentRow(c["number"], c["size"], c["ties"], [people[k] for k in c["members"][:members]]) for c in found]
 
     tables = ["components", "strong", "isolates"] if p["strong"] is not None else ["components", "isolates"]
     return ComponentsPage(
         slice=slice, conventions=p["conventions"], computed_at_version=outcome.computed_at_version,
-        components=listed(p["components"]), strong=listed(p["strong"]) if p["strong"] is not None else None,
-        isolates=[people[k] for k in p["isolates"]], largest_share=p["largest_share"],
-        context=_context(session, "components", slice, outcome, [], tables),
+        components=listed(parts["components"]), strong=listed(parts["strong"]) if p["strong"] is not None else None,
+        isolates=[people[k] for k in isolates], largest_share=p["largest_share"], component_count=len(p["components"]),
+        strong_count=len(p["strong"]) if p["strong"] is not None else None, isolate_count=len(p["isolates"]),
+        members_shown=members, rows_shown=rows, context=_context(session, "components", slice, outcome, [], tables),
     )  # fmt: skip
 
 
@@ -263,9 +289,9 @@ def cut_points_view(*, session: Session, database: Database, slice: Slice, recom
     p = outcome.payload
     people = _people(session, [c["key"] for c in p["cut_points"]] + [k for b in p["bridges"] for k in (b["a"], b["b"])])
     bridges = [
-        BridgeRow(a=people[b["a"]], b=people[b["b"]], sides=b["sides"], weight=b["weight"], documents=b["documents"],
-                  attestations=b["attestations"], single_document=b["single_document"], relation_ids=b["relation_ids"])
-        for b in p["bridges"]
+        BridgeRow(a=people[a], b=people[b], sides=sides, weight=row["weight"], documents=row["documents"],
+                  attestations=row["attestations"], single_document=row["single_document"], relation_ids=row["relation_ids"])
+        for row in p["bridges"] for a, b, sides in [_larger_side_first(row)]
     ]  # fmt: skip
     return CutPointsPage(
         slice=slice, conventions=p["conventions"], computed_at_version=outcome.computed_at_version,
@@ -277,37 +303,59 @@ def cut_points_view(*, session: Session, database: Database, slice: Slice, recom
 
 def cliques_view(
     *, session: Session, database: Database, slice: Slice, min_size: str | None = None, recompute: bool = False,  # noqa: A002
+    all_rows: bool = False,
 ) -> CliquesPage:
-    """Return the maximal cliques of at least ``min_size`` persons (3 by default) of ``slice``."""
+    """Return the maximal cliques of at least ``min_size`` persons (3 by default) of ``slice``.
+
+    The first ``ROWS_SHOWN`` cliques and persons, ``MEMBERS_SHOWN`` members each, unless ``all_rows``.
+    """
     size = _whole("min_size", min_size, default=3, low=2, high=1000)
     outcome = _outcome(database, "cliques", slice, {"min_size": size}, recompute)
     p = outcome.payload
-    people = _people(session, [k for c in p["cliques"] for k in c["members"]])
+    rows, members = (None, None) if all_rows else (ROWS_SHOWN, MEMBERS_SHOWN)
+    found, per_person = p["cliques"][:rows], p["per_person"][:rows]
+    people = _people(session, [k for c in found for k in c["members"][:members]] + [row["key"] for row in per_person])
     return CliquesPage(
         slice=slice, conventions=p["conventions"], computed_at_version=outcome.computed_at_version,
         min_size=p["min_size"], limit=p["limit"], complete=p["complete"], projection_note=p.get("projection_note"),
-        cliques=[CliqueRow(c["number"], len(c["members"]), [people[k] for k in c["members"]]) for c in p["cliques"]],
-        per_person=[PersonCount(people[row["key"]], row["cliques"]) for row in p["per_person"]],
+        cliques=[CliqueRow(c["number"], len(c["members"]), [people[k] for k in c["members"][:members]]) for c in found],
+        per_person=[PersonCount(people[row["key"]], row["cliques"]) for row in per_person],
+        clique_count=len(p["cliques"]), per_person_count=len(p["per_person"]), members_shown=members, rows_shown=rows,
         context=_context(session, "cliques", slice, outcome, _non_default(min_size=(str(size), "3")), ["cliques", "per_person"]),
     )  # fmt: skip
 
 
 def communities_view(
     *, session: Session, database: Database, slice: Slice, method: str | None = None, seed: str | None = None,  # noqa: A002
-    recompute: bool = False,
+    recompute: bool = False, all_rows: bool = False, worker: Worker | None = None, requested_by: str = "anonymous",
+    inline_up_to: int = INLINE_UP_TO,
 ) -> CommunitiesPage:
-    """Return the communities of ``slice`` found by ``method`` (leiden by default) with ``seed`` (0)."""
+    """Return the communities of ``slice`` found by ``method`` (leiden by default) with ``seed`` (0).
+
+    ``MEMBERS_SHOWN`` members of each and the first ``ROWS_SHOWN`` isolates, unless ``all_rows``. On a
+    large slice the partition of the seed is shown at once and the comparison across seeds is left
+    to the background worker.
+    """
     method = (method or "leiden").strip().lower()
     if method not in METHODS:
         raise BadParameter("method", method, METHODS)
     number = _whole("seed", seed, default=0, low=0, high=MAX_SEED)
-    outcome = _outcome(database, "communities", slice, {"method": method, "seed": number}, recompute)
+    options = {"method": method, "seed": number}
+    job = None
+    if needs_worker("communities", options, slice_size(database, slice, request_visibility()), inline_up_to):
+        # A large slice: one seed's partition at once, its stability across seeds from the background worker.
+        quick = _outcome(database, "communities", slice, {**options, "runs": 1}, recompute)
+        outcome, job = _refined(database, worker, "communities", options, slice, quick, recompute, requested_by, inline_up_to)
+    else:
+        outcome = _outcome(database, "communities", slice, options, recompute)
     p = outcome.payload
-    people = _people(session, [k for c in p["communities"] for k in c["members"]] + p["isolates"])
+    rows, members = (None, None) if all_rows else (ROWS_SHOWN, MEMBERS_SHOWN)
+    isolates = p["isolates"][:rows]
+    people = _people(session, [k for c in p["communities"] for k in c["members"][:members]] + isolates)
     consistency = (p["stability"] or {}).get("consistency", {})
     communities = [
         CommunityRow(c["number"], len(c["members"]), c["ties"], c["weight"],
-                     [CommunityMember(people[k], consistency.get(k)) for k in c["members"]])
+                     [CommunityMember(people[k], consistency.get(k)) for k in c["members"][:members]])
         for c in p["communities"]
     ]  # fmt: skip
     s = p["stability"]
@@ -316,22 +364,47 @@ def communities_view(
     return CommunitiesPage(
         slice=slice, conventions=p["conventions"], computed_at_version=outcome.computed_at_version, method=method,
         methods=list(METHODS), seed=number, engine=p["engine"], modularity=p["modularity"], communities=communities,
-        links=[CommunityLinkRow(**link) for link in p["links"]], isolates=[people[k] for k in p["isolates"]],
+        links=[CommunityLinkRow(**link) for link in p["links"]], isolates=[people[k] for k in isolates],
+        isolate_count=len(p["isolates"]), members_shown=members, rows_shown=rows,
         stability=stability, caution=ONE_SEED,
-        context=_context(session, "communities", slice, outcome, parameters, ["members", "links", "isolates"]),
+        context=_context(session, "communities", slice, outcome, parameters, ["members", "links", "isolates"]), job=job,
     )  # fmt: skip
 
 
-def person_measures_view(*, session: Session, database: Database, key: str, slice: Slice) -> PersonMeasures:  # noqa: A002
-    """Return one person's value and rank for every centrality the slice gives; 404 for an unknown person."""
+def person_measures_view(
+    *, session: Session, database: Database, key: str, slice: Slice, worker: Worker | None = None,  # noqa: A002
+    requested_by: str = "anonymous", inline_up_to: int = INLINE_UP_TO,
+) -> PersonMeasures:
+    """Return one person's value and rank for every centrality the slice gives; 404 for an unknown person.
+
+    On a slice of more than ``inline_up_to`` persons only the cheap measures are computed here; the
+    others are read from the stored results, or queued for the background worker (their exact
+    form) and listed as computing.
+    """
     person = get_person_label(session=session, key=key)
     if person is None:
         raise HTTPException(status_code=404, detail=f"There is no person with the key {key}.")
     names = [m for m in MEASURES if _directed(slice) or m not in DIRECTED_MEASURES]
-    outcomes = _outcomes(database, [(m, {}) for m in names], slice)
-    n = outcomes[0].payload["n"]
+    cheap = [m for m in names if m in CHEAP]
+    found = dict(zip(cheap, _outcomes(database, [(m, {}) for m in cheap], slice)))
+    n = found[cheap[0]].payload["n"]
+    others = [m for m in names if m not in found]
+    computing: list[str] = []
+    if n <= inline_up_to:
+        found.update(zip(others, _outcomes(database, [(m, {}) for m in others], slice)))
+    for measure in (m for m in others if m not in found):
+        exact = {"exact": True} if measure in SAMPLED else {}
+        result = peek_outcome(database, measure=measure, slice=slice, options=exact, visibility=request_visibility())
+        if result is None:
+            result = _background(database, worker, measure, exact, slice, requested_by, inline_up_to)
+        if isinstance(result, Pending):  # meanwhile a stored estimate, if any
+            result = peek_outcome(database, measure=measure, slice=slice, options={}, visibility=request_visibility())
+        if result is None:
+            computing.append(MEASURE_INFO[measure].label)
+        else:
+            found[measure] = result
     rows: list[PersonMeasureRow] = []
-    for measure, outcome in zip(names, outcomes):
+    for measure, outcome in ((m, found[m]) for m in names if m in found):
         row = next((r for r in outcome.payload["rows"] if r["key"] == person.key), None)
         if row is None:
             continue
@@ -348,7 +421,8 @@ def person_measures_view(*, session: Session, database: Database, key: str, slic
     elif any(r.changes_since for r in rows):
         note = "Some figures were computed before the latest changes to the data: each measure's page can recompute them."
     return PersonMeasures(key=person.key, name=person.name, slice=slice, slice_summary=slice.describe(),
-                          population=mode_population(population_sentence(n, slice.nodes), slice), in_slice=bool(rows), note=note, measures=rows)  # fmt: skip
+                          population=mode_population(population_sentence(n, slice.nodes), slice), in_slice=bool(rows),
+                          note=note, measures=rows, computing=computing)  # fmt: skip
 
 
 # --- CSV tables --------------------------------------------------------------------------------
@@ -440,6 +514,38 @@ def _background(database: Database, worker: Worker | None, measure: str, options
         raise BadParameter(error.parameter, error.value, error.accepted) from error
 
 
+def _larger_side_first(bridge: dict[str, Any]) -> tuple[str, str, list[int]]:
+    """Return a bridge's ends and sides with the end on the larger side first (equal sides: as stored)."""
+    a_side, b_side = bridge["sides"]
+    if b_side > a_side:
+        return bridge["b"], bridge["a"], [b_side, a_side]
+    return bridge["a"], bridge["b"], [a_side, b_side]
+
+
+def _refined(database: Database, worker: Worker | None, measure: str, options: dict[str, Any], slice_: Slice,
+             quick: Outcome, recompute: bool, requested_by: str, inline_up_to: int) -> tuple[Outcome, BackgroundJob | None]:
+    """Return the full result of a large slice if stored (else ``quick``), and the background job that makes it.
+
+    A recompute queues the job again (the quick result was just recomputed); a reload joins the
+    job already queued instead of starting the work again.
+    """
+    if not recompute:
+        stored = peek_outcome(database, measure=measure, slice=slice_, options=options, visibility=request_visibility())
+        if stored is not None:
+            return stored, None
+    if not needs_worker(measure, options, quick.payload["n"], inline_up_to):
+        return _outcome(database, measure, slice_, options, recompute), None
+    if recompute:
+        pending = queue_recompute(database, worker, measure=measure, options=options, slice=slice_,
+                                  requested_by=requested_by, visibility=request_visibility())
+    else:
+        found = _background(database, worker, measure, options, slice_, requested_by, inline_up_to)
+        if not isinstance(found, Pending):
+            return found, None
+        pending = found
+    return quick, _job_view(pending, measure)
+
+
 def _pending_outcome(database: Database, measure: str, slice_: Slice) -> Outcome:
     """Return an empty ranking for a measure still computing; n and freshness come from degree (cheap)."""
     degree = _outcome(database, "degree", slice_, {}, False)
@@ -453,7 +559,8 @@ def job_view(job: JobInfo | None, measure: str, refused: str | None = None) -> B
     """Return what a page shows of a background job."""
     if job is None:
         return BackgroundJob(None, "refused", 0.0, measure, refused or "The job could not be queued.", None, None)
-    label = MEASURE_INFO[job.measure].label if job.measure in MEASURE_INFO else job.measure
+    label = (MEASURE_INFO[job.measure].label if job.measure in MEASURE_INFO else
+             {"summary": "Exact path lengths", "communities": "Stability across seeds"}.get(job.measure, job.measure))
     message = {
         "queued": f"{label}: waiting for the background worker.",
         "running": f"{label}: computing in the background, {job.progress:.0%} done.",
@@ -627,7 +734,7 @@ _SUMMARY = ("The slice at a glance: persons, ties and attestations, density, rec
             "JSON: `/api/network/summary`.")  # fmt: skip
 def summary_page(request: Request, session: SessionDep, database: DatabaseDep, slice: SliceDep,  # noqa: A002
                  format: str | None = _FORMAT, table: str | None = _TABLE) -> Response:  # noqa: A002
-    view = summary_view(session=session, database=database, slice=slice)
+    view = summary_view(session=session, database=database, slice=slice, **_worker_of(request))
     return _respond(request, view, template="network_summary.html", partial="_network_summary.html", fmt=format,
                     table=table, filename="summary")
 
@@ -697,7 +804,7 @@ _COMPONENTS = ("Every component of the slice with its size, ties and members, la
             description=_COMPONENTS + " JSON: `/api/network/components`.")  # fmt: skip
 def components_page(request: Request, session: SessionDep, database: DatabaseDep, slice: SliceDep,  # noqa: A002
                     format: str | None = _FORMAT, table: str | None = _TABLE) -> Response:  # noqa: A002
-    view = components_view(session=session, database=database, slice=slice)
+    view = components_view(session=session, database=database, slice=slice, all_rows=bool(format))
     return _respond(request, view, template="network_components.html", partial="_network_components.html", fmt=format,
                     table=table, filename="components")
 
@@ -740,7 +847,7 @@ _CLIQUES = (f"The maximal cliques (everyone tied to everyone) of at least `min_s
             description=_CLIQUES + " JSON: `/api/network/cliques`.")  # fmt: skip
 def cliques_page(request: Request, session: SessionDep, database: DatabaseDep, slice: SliceDep,  # noqa: A002
                  min_size: str | None = _MIN_SIZE, format: str | None = _FORMAT, table: str | None = _TABLE) -> Response:  # noqa: A002
-    view = cliques_view(session=session, database=database, slice=slice, min_size=min_size)
+    view = cliques_view(session=session, database=database, slice=slice, min_size=min_size, all_rows=bool(format))
     return _respond(request, view, template="network_cliques.html", partial="_network_cliques.html", fmt=format,
                     table=table, filename="cliques")
 
@@ -767,7 +874,8 @@ def communities_page(
     request: Request, session: SessionDep, database: DatabaseDep, slice: SliceDep, method: str | None = _METHOD,  # noqa: A002
     seed: str | None = _SEED, format: str | None = _FORMAT, table: str | None = _TABLE,  # noqa: A002
 ) -> Response:
-    view = communities_view(session=session, database=database, slice=slice, method=method, seed=seed)
+    view = communities_view(session=session, database=database, slice=slice, method=method, seed=seed,
+                            all_rows=bool(format), **_worker_of(request))
     return _respond(request, view, template="network_communities.html", partial="_network_communities.html", fmt=format,
                     table=table, filename=f"communities-{view.method}")
 
@@ -795,9 +903,13 @@ def _recomputed(request: Request, view: str, session: Session, database: Databas
     if view not in BUILDERS:
         raise HTTPException(status_code=404, detail=f"There is no measure page {view}; the pages are {', '.join(VIEWS)}.")
     builder = BUILDERS[view][0]
-    accepted = set(inspect.signature(builder).parameters) - {"session", "database", "slice", "recompute", "all_rows"}
+    parameters = set(inspect.signature(builder).parameters)
+    background = {"worker", "requested_by", "inline_up_to"}
+    accepted = parameters - {"session", "database", "slice", "recompute", "all_rows"} - background
     query: Mapping[str, str] = request.query_params
     options = {name: query.get(name) for name in accepted}
+    if background <= parameters:  # a large slice's heavy measure is queued for the worker, not computed here
+        options.update(_worker_of(request))
     return builder(session=session, database=database, slice=slice_, recompute=True, **options)
 
 
@@ -856,7 +968,7 @@ def job_status_api(request: Request, job_id: int, database: DatabaseDep) -> Resp
             description=_PERSON_MEASURES + " The person page loads it into itself with htmx (an htmx request gets "
             "only the table). JSON: `/api/persons/{key}/measures`.")  # fmt: skip
 def person_measures_page(request: Request, key: str, session: SessionDep, database: DatabaseDep, slice: SliceDep) -> Response:  # noqa: A002
-    view = person_measures_view(session=session, database=database, key=key, slice=slice)
+    view = person_measures_view(session=session, database=database, key=key, slice=slice, **_worker_of(request))
     return render(request, view, template="person_measures.html", partial="_person_measures.html")
 
 

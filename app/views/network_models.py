@@ -5,7 +5,7 @@ Every field has a docstring, which the OpenAPI description of the JSON twins sho
 
 from __future__ import annotations
 
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 from datetime import datetime
 
 from app.network.definitions import Definition
@@ -221,6 +221,8 @@ class SummaryPage:
     """Attestations behind the ties from printed sources (outside any collection, not in the shares)."""
     context: PageContext
     """Slice, node set, freshness and the slice form."""
+    job: BackgroundJob | None = None
+    """The background job computing the exact path lengths of a large slice, while it runs or when it failed."""
 
 
 # --- centrality --------------------------------------------------------------------------------
@@ -372,9 +374,19 @@ class ComponentsPage:
     strong: list[ComponentRow] | None
     """Strongly connected components of a directed slice (every member reaches every other along the arcs)."""
     isolates: list[PersonRef]
-    """Persons without a tie to anyone else."""
+    """Persons without a tie to anyone else (the first ``rows_shown``; the CSV holds all)."""
     largest_share: float | None
     """Share of the persons in the largest component."""
+    component_count: int
+    """Number of components (only the first ``rows_shown`` are listed; the CSV holds all)."""
+    strong_count: int | None
+    """Number of strongly connected components of a directed slice."""
+    isolate_count: int
+    """Number of persons without ties."""
+    members_shown: int | None
+    """At most this many members of each component are listed (None: all, as in the CSV); ``size`` counts them all."""
+    rows_shown: int | None
+    """At most this many components and isolates are listed (None: all)."""
     context: PageContext
     """Slice, node set, freshness and the slice form."""
 
@@ -406,7 +418,7 @@ class BridgeRow:
     b: PersonRef
     """The other end."""
     sides: list[int]
-    """Persons on a's side and on b's side once the tie is gone."""
+    """Persons on a's side and on b's side once the tie is gone; a is the end on the larger side."""
     weight: float
     """The tie's weight in the slice."""
     documents: int | None
@@ -488,9 +500,17 @@ class CliquesPage:
     projection_note: str | None
     """On a co-membership graph: why the search is capped lower (a group is a clique by construction)."""
     cliques: list[CliqueRow]
-    """The cliques, largest first."""
+    """The cliques, largest first (the first ``rows_shown``; the CSV holds all)."""
     per_person: list[PersonCount]
-    """Persons in at least one listed clique, most cliques first."""
+    """Persons in at least one listed clique, most cliques first (the first ``rows_shown``)."""
+    clique_count: int
+    """Number of cliques found."""
+    per_person_count: int
+    """Number of persons in at least one clique."""
+    members_shown: int | None
+    """At most this many members of each clique are listed (None: all); ``size`` counts them all."""
+    rows_shown: int | None
+    """At most this many cliques and persons are listed (None: all, as in the CSV)."""
     context: PageContext
     """Slice, node set, freshness and the slice form."""
 
@@ -584,13 +604,21 @@ class CommunitiesPage:
     links: list[CommunityLinkRow]
     """Ties between communities, heaviest first."""
     isolates: list[PersonRef]
-    """Persons without ties: in no community."""
+    """Persons without ties: in no community (the first ``rows_shown``; the CSV holds all)."""
+    isolate_count: int
+    """Number of persons without ties."""
+    members_shown: int | None
+    """At most this many members of each community are listed (None: all, as in the CSV); ``size`` counts them all."""
+    rows_shown: int | None
+    """At most this many isolates are listed (None: all)."""
     stability: StabilityInfo | None
     """Agreement across seeds (None without ties)."""
     caution: str
     """Why one seed's partition is not a finding."""
     context: PageContext
     """Slice, node set, freshness and the slice form."""
+    job: BackgroundJob | None = None
+    """The background job comparing the seeds of a large slice, while it runs or when it failed."""
 
 
 # --- one person's measures ------------------------------------------------------------------
@@ -648,3 +676,5 @@ class PersonMeasures:
     """Why there are no figures, or what to know about them."""
     measures: list[PersonMeasureRow]
     """One row per centrality the slice gives."""
+    computing: list[str] = field(default_factory=list)
+    """Measures of a large slice still being computed in the background (their rows come when they are ready)."""

@@ -11,7 +11,9 @@ from dataclasses import dataclass
 
 import networkx as nx
 
-from app.network.measures.conventions import direction_sentence, induced, population_sentence, working_graph
+from app.network.measures import kernels
+from app.network.measures.arcs import ArcGraph
+from app.network.measures.conventions import direction_sentence, population_sentence, working_graph
 from app.network.measures.results import MeasureError, node_key
 
 __all__ = ["CLIQUE_LIMIT", "Clique", "CliquesResult", "cliques"]
@@ -53,7 +55,7 @@ class CliquesResult:
     """Plain sentences: node set and n, the view used, the cap."""
 
 
-def cliques(G: nx.Graph, *, min_size: int = 3, limit: int = CLIQUE_LIMIT, node_set: str | None = None) -> CliquesResult:
+def cliques(G: nx.Graph | ArcGraph, *, min_size: int = 3, limit: int = CLIQUE_LIMIT, node_set: str | None = None) -> CliquesResult:
     """Return the maximal cliques of G with at least ``min_size`` persons, largest first.
 
     Only the (min_size - 1)-core is searched: a person in a clique of k persons has at least
@@ -78,19 +80,11 @@ def cliques(G: nx.Graph, *, min_size: int = 3, limit: int = CLIQUE_LIMIT, node_s
         raise MeasureError("min_size", min_size, "a whole number of 2 or more")
     if isinstance(limit, bool) or not isinstance(limit, int) or limit < 1:
         raise MeasureError("limit", limit, "a whole number of 1 or more")
-    H = working_graph(G, loops="drop", undirected=True)
-    core = induced(H, {v for v, k in nx.core_number(H).items() if k >= min_size - 1})
-    found: list[list[Hashable]] = []
-    complete = True
-    for clique in nx.find_cliques(core):
-        if len(clique) < min_size:
-            continue
-        if len(found) == limit:
-            complete = False
-            break
-        found.append(sorted(clique, key=node_key))
+    H = working_graph(G if isinstance(G, ArcGraph) else ArcGraph.from_networkx(G), loops="drop", undirected=True)
+    positions, complete = kernels.maximal_cliques(H, min_size=min_size, limit=limit)
+    found = [sorted((H.nodes[i] for i in clique), key=node_key) for clique in positions]
     found.sort(key=lambda members: (-len(members), [node_key(v) for v in members]))
-    per_node = dict.fromkeys(H, 0)
+    per_node = dict.fromkeys(H.nodes, 0)
     for members in found:
         for v in members:
             per_node[v] += 1
@@ -99,7 +93,7 @@ def cliques(G: nx.Graph, *, min_size: int = 3, limit: int = CLIQUE_LIMIT, node_s
         direction_sentence(G, undirected_measure=True),
         "Self-loops are left out.",
         f"Maximal cliques (everyone tied to everyone, no one left who could join) of {min_size} or more persons, "
-        "largest first (networkx).",
+        "largest first (igraph).",
     ]
     if complete:
         sentences.append(f"All {len(found)} are listed.")

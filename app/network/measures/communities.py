@@ -17,14 +17,8 @@ import networkx as nx
 import numpy as np
 
 from app.network.measures import kernels
-from app.network.measures.conventions import (
-    WEIGHT,
-    direction_sentence,
-    induced,
-    loops_sentence,
-    population_sentence,
-    working_graph,
-)
+from app.network.measures.arcs import ArcGraph
+from app.network.measures.conventions import WEIGHT, direction_sentence, loops_sentence, population_sentence, working_graph
 from app.network.measures.results import MeasureError, node_key
 
 __all__ = [
@@ -121,7 +115,7 @@ class CommunitiesResult:
 
 
 def communities(
-    G: nx.Graph, *, method: str = "leiden", seed: int = 0, weight: str | None = "weight", loops: str = "drop",
+    G: nx.Graph | ArcGraph, *, method: str = "leiden", seed: int = 0, weight: str | None = "weight", loops: str = "drop",
     engine: str = "igraph", runs: int = STABILITY_RUNS, node_set: str | None = None,
 ) -> CommunitiesResult:
     """Return the communities of G found by ``method`` with ``seed``, and their stability.
@@ -150,25 +144,37 @@ def communities(
     """
     if isinstance(runs, bool) or not isinstance(runs, int) or runs < 1:
         raise MeasureError("runs", runs, "a whole number of 1 or more")
-    H = working_graph(G, weight=weight, loops=loops, undirected=True, sort_edges=True)
-    isolates = [v for v in H if all(u == v for u in H[v])]
-    connected = induced(H, {v for v in H if any(u != v for u in H[v])})
+    H = _sorted_ties(working_graph(G if isinstance(G, ArcGraph) else ArcGraph.from_networkx(G), weight=weight,
+                                   loops=loops, undirected=True))
+    other = H.source != H.target
+    tied = np.zeros(len(H), dtype=bool)
+    tied[H.source[other]] = tied[H.target[other]] = True
+    isolates = [H.nodes[i] for i in np.flatnonzero(~tied)]
+    connected = H.subgraph(tied)
     groups = partition(connected, method=method, seed=seed, engine=engine)
     numbered = sorted((sorted(group, key=node_key) for group in groups), key=lambda g: (-len(g), node_key(g[0])))
-    membership: dict[Hashable, int | None] = dict.fromkeys(H, None)
+    membership: dict[Hashable, int | None] = dict.fromkeys(H.nodes, None)
     for number, members in enumerate(numbered, 1):
         for v in members:
             membership[v] = number
-    inside = {number: [0, 0.0] for number in range(1, len(numbered) + 1)}
-    between: dict[tuple[int, int], list] = {}
-    for u, v, w in connected.edges(data=WEIGHT):
-        a, b = sorted((membership[u], membership[v]))
-        tally = inside[a] if a == b else between.setdefault((a, b), [0, 0.0])
-        tally[0] += 1
-        tally[1] += w
+    label = np.array([membership[v] for v in connected.nodes], dtype=np.int64)
+    a, b = label[connected.source], label[connected.target]
+    low, high = np.minimum(a, b), np.maximum(a, b)
+    count = len(numbered) + 1
+    inside_ties = np.bincount(low[low == high], minlength=count)
+    inside_weight = np.bincount(low[low == high], weights=connected.weight[low == high], minlength=count)
+    inside = {number: [int(inside_ties[number]), float(inside_weight[number])] for number in range(1, count)}
+    cells, where = np.unique(low[low != high] * count + high[low != high], return_inverse=True)
+    link_ties = np.bincount(where.reshape(-1), minlength=len(cells))
+    link_weight = np.bincount(where.reshape(-1), weights=connected.weight[low != high], minlength=len(cells))
+    between = {(int(c // count), int(c % count)): [int(t), float(w)] for c, t, w in zip(cells, link_ties, link_weight)}
     modularity = None
     if connected.number_of_edges():
-        modularity = nx.community.modularity(H, [*numbered, *([v] for v in isolates)], weight=WEIGHT)
+        # The persons without ties add nothing unless they hold loops: then they count, each a community of one.
+        whole = connected if connected.number_of_edges() == H.number_of_edges() else H
+        position = {v: i for i, v in enumerate(whole.nodes)}
+        parts = numbered if whole is connected else [*numbered, *([v] for v in isolates)]
+        modularity = kernels.modularity(whole, [[position[v] for v in g] for g in parts])
     stability = None
     if runs > 1 and len(connected):
         others = [groups] + [partition(connected, method=method, seed=s, engine=engine) for s in range(seed + 1, seed + runs)]
@@ -179,7 +185,7 @@ def communities(
         loops_sentence(loops, "a loop adds its weight inside its person's community"),
         f"{'Leiden' if method == 'leiden' else 'Louvain'} method ({engine}) maximizing modularity with the slice's weight, "
         f"seed {seed}: the same slice and seed give the same communities.",
-        "Modularity (networkx) is the share of the weight inside communities minus the share expected if ties fell at "
+        "Modularity (igraph, as networkx computes it) is the share of the weight inside communities minus the share expected if ties fell at "
         "random with the same strengths.",
         "Persons without ties belong to no community and are listed apart.",
     ]
@@ -195,7 +201,7 @@ def communities(
     )
 
 
-def partition(G: nx.Graph, *, method: str = "leiden", seed: int = 0, engine: str = "igraph") -> list[list[Hashable]]:
+def partition(G: nx.Graph | ArcGraph, *, method: str = "leiden", seed: int = 0, engine: str = "igraph") -> list[list[Hashable]]:
     """Return the communities of an undirected working graph (weights in ``weight``) as lists.
 
     Leiden is computed by igraph only; Louvain by igraph or by networkx (the reference).
@@ -216,6 +222,12 @@ def partition(G: nx.Graph, *, method: str = "leiden", seed: int = 0, engine: str
         return kernels.leiden(G, weight=WEIGHT, seed=seed)
     if engine == "igraph":
         return kernels.louvain(G, weight=WEIGHT, seed=seed)
+    if isinstance(G, ArcGraph):  # the reference: networkx's own Louvain on the same ties, in the same order
+        reference = nx.Graph()
+        reference.add_nodes_from(G.nodes)
+        reference.add_weighted_edges_from((G.nodes[u], G.nodes[v], w) for u, v, w in
+                                          zip(G.source.tolist(), G.target.tolist(), G.weight.tolist()))
+        G = reference
     return [list(c) for c in nx.community.louvain_communities(G, weight=WEIGHT, seed=seed)]
 
 
@@ -262,6 +274,13 @@ def consistency(partitions: Sequence[Mapping[Hashable, Hashable]]) -> dict[Hasha
 
 
 # --- helpers -------------------------------------------------------------------------------
+
+
+def _sorted_ties(H: ArcGraph) -> ArcGraph:
+    """Return H with each tie's lower position first and the ties in order: a seeded search visits them in that order."""
+    low, high = np.minimum(H.source, H.target), np.maximum(H.source, H.target)
+    order = np.lexsort((high, low))
+    return H.with_(source=low[order], target=high[order], weight=H.weight[order])
 
 
 def _stability(nodes: list[Hashable], runs: list[list[list[Hashable]]], seeds: list[int]) -> Stability:

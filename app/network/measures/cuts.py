@@ -10,16 +10,17 @@ lost or misread letter would change the picture.
 
 from __future__ import annotations
 
-from collections import defaultdict
-from collections.abc import Hashable
+from collections.abc import Callable, Hashable
 from dataclasses import dataclass
 
 import networkx as nx
 
+from app.network.measures import kernels
+from app.network.measures.arcs import ArcGraph
 from app.network.measures.conventions import direction_sentence, population_sentence, undirected_view, working_graph
 from app.network.measures.results import node_key
 
-__all__ = ["Bridge", "CutPoint", "CutsResult", "cuts"]
+__all__ = ["Bridge", "CutPoint", "CutsResult", "TieRecord", "cuts"]
 
 
 @dataclass(frozen=True)
@@ -75,19 +76,19 @@ class CutsResult:
     """Plain sentences: node set and n, the view used, orderings."""
 
 
-def cuts(G: nx.Graph, *, node_set: str | None = None) -> CutsResult:
+def cuts(G: nx.Graph | ArcGraph, *, node_set: str | None = None,
+         evidence: Callable[[Hashable, Hashable], TieRecord] | None = None) -> CutsResult:
     """Return the cut points of G with the pieces they leave, and its bridges with their evidence.
 
-    One depth-first search finds both and sizes the pieces (Hopcroft and Tarjan): a child
-    subtree whose back edges climb no higher than its parent is cut off by the parent; if they
-    do not reach the parent at all, the tree edge to it is a bridge.
+    G is a networkx graph or an ArcGraph; igraph finds both on the undirected view without
+    loops (``kernels.cut_structure``). ``evidence(u, v)`` gives what the slice holds about the
+    tie between two persons; without it, a networkx graph's edge data is read (an ArcGraph then
+    gives weights only).
 
     References
     ----------
     Hopcroft, J., & Tarjan, R. (1973). Algorithm 447: efficient algorithms for graph
     manipulation. Communications of the ACM 16(6), 372-378.
-    Tarjan, R. (1972). Depth-first search and linear graph algorithms. SIAM Journal on
-    Computing 1(2), 146-160.
 
     Examples
     --------
@@ -98,27 +99,24 @@ def cuts(G: nx.Graph, *, node_set: str | None = None) -> CutsResult:
     >>> [(b.u, b.v, b.sides) for b in result.bridges]
     [(3, 4, (3, 3))]
     """
-    H = working_graph(G, loops="drop", undirected=True)
-    full = undirected_view(G)
-    found_cut_points, found_bridges = _search(H)
-    cut_points = [CutPoint(node=node, pieces=pieces, component_size=size) for node, pieces, size in found_cut_points]
+    arcs = G if isinstance(G, ArcGraph) else ArcGraph.from_networkx(G)
+    H = working_graph(arcs, loops="drop", undirected=True)
+    found_cut_points, found_bridges = kernels.cut_structure(H)
+    nodes = H.nodes
+    cut_points = [CutPoint(node=nodes[v], pieces=pieces, component_size=size) for v, pieces, size in found_cut_points]
+    if evidence is None:
+        evidence = _graph_evidence(G) if not isinstance(G, ArcGraph) else _weight_only(G)
+    exact = not G.is_directed() or isinstance(G, ArcGraph) or _has_document_ids(G)
     bridges: list[Bridge] = []
-    for parent, child, parent_side, child_side in found_bridges:
-        u, v, sides = (parent, child, (parent_side, child_side))
+    for a, b, a_side, b_side in found_bridges:
+        u, v, sides = nodes[a], nodes[b], (a_side, b_side)
         if node_key(v) < node_key(u):
-            u, v, sides = v, u, (child_side, parent_side)
-        data = full[u][v]
-        documents = data.get("documents")
-        single = documents == 1
-        if G.is_directed() and "document_ids" not in data:
-            # Without document ids the merged count is the larger arc's, a lower bound: flag only
-            # when both arcs together hold one document (direction=undirected counts exactly).
-            arcs = [G[a][b].get("documents", 0) for a, b in ((u, v), (v, u)) if G.has_edge(a, b)]
-            single = sum(arcs) == 1
+            u, v, sides = v, u, (b_side, a_side)
+        record = evidence(u, v)
         bridges.append(Bridge(
-            u=u, v=v, sides=sides, weight=float(data.get("weight", 1.0)), documents=documents,
-            attestations=data.get("attestations"), attestation_ids=list(data.get("attestation_ids", [])),
-            relation_ids=list(data.get("relation_ids", [])), single_document=single,
+            u=u, v=v, sides=sides, weight=record.weight, documents=record.documents, attestations=record.attestations,
+            attestation_ids=list(record.attestation_ids), relation_ids=list(record.relation_ids),
+            single_document=record.single_document,
         ))
     cut_points.sort(key=lambda c: (-c.cut_off, node_key(c.node)))
     bridges.sort(key=lambda b: (-min(b.sides), node_key(b.u), node_key(b.v)))
@@ -127,69 +125,62 @@ def cuts(G: nx.Graph, *, node_set: str | None = None) -> CutsResult:
         direction_sentence(G, undirected_measure=True),
         "Self-loops are left out: they never connect anyone.",
         "A cut point's pieces are the parts its removal leaves of its own component; cut points and bridges "
-        "that separate most persons from the largest remaining piece come first.",
+        "that separate most persons from the largest remaining piece come first (igraph).",
         "A bridge attested by a single document is flagged: one lost or misread document would change the picture"
-        + (" (on a directed slice a tie recorded both ways is flagged only when the two directions together hold one "
-           "document; direction=undirected counts exactly)." if G.is_directed() else "."),
+        + ("." if exact else " (on a directed slice a tie recorded both ways is flagged only when the two directions "
+                             "together hold one document; direction=undirected counts exactly)."),
     ])
     if G.is_directed():
-        conventions += (" On a directed slice a bridge's documents are counted per arc and the larger count is given: "
+        conventions += (" On a directed slice a bridge's documents are those of every relation between the two persons, "
+                        "in either direction, each document counted once." if exact else
+                        " On a directed slice a bridge's documents are counted per arc and the larger count is given: "
                         "use direction=undirected for the exact number.")
     return CutsResult(cut_points=cut_points, bridges=bridges, conventions=conventions)
 
 
-def _search(
-    H: nx.Graph,
-) -> tuple[list[tuple[Hashable, list[int], int]], list[tuple[Hashable, Hashable, int, int]]]:
-    """Return (cut point, piece sizes, component size) and (parent, child, parent's side, child's side).
+@dataclass(frozen=True)
+class TieRecord:
+    """What the slice holds about the tie between two persons (both directions together)."""
 
-    Iterative depth-first search, so that long chains of persons do not exhaust Python's stack.
-    """
-    cut_points: list[tuple[Hashable, list[int], int]] = []
-    bridges: list[tuple[Hashable, Hashable, int, int]] = []
-    discovered: dict[Hashable, int] = {}
-    low: dict[Hashable, int] = {}
-    below: dict[Hashable, int] = {}  # persons in the subtree, the person included
-    clock = 0
-    for root in H:
-        if root in discovered:
-            continue
-        discovered[root] = low[root] = clock
-        clock += 1
-        below[root] = 1
-        separated: dict[Hashable, list[int]] = defaultdict(list)
-        tree_bridges: list[tuple[Hashable, Hashable]] = []
-        size = 1
-        stack = [(root, None, iter(H[root]))]
-        while stack:
-            v, parent, neighbours = stack[-1]
-            for w in neighbours:
-                if w == parent:
-                    continue
-                if w in discovered:
-                    low[v] = min(low[v], discovered[w])
-                    continue
-                discovered[w] = low[w] = clock
-                clock += 1
-                below[w] = 1
-                size += 1
-                stack.append((w, v, iter(H[w])))
-                break
-            else:
-                stack.pop()
-                if parent is None:
-                    continue
-                low[parent] = min(low[parent], low[v])
-                below[parent] += below[v]
-                if low[v] >= discovered[parent]:
-                    separated[parent].append(below[v])
-                if low[v] > discovered[parent]:
-                    tree_bridges.append((parent, v))
-        for v, sizes in separated.items():
-            if v == root:
-                if len(sizes) >= 2:
-                    cut_points.append((v, sorted(sizes, reverse=True), size))
-            else:
-                cut_points.append((v, sorted([*sizes, size - 1 - sum(sizes)], reverse=True), size))
-        bridges.extend((parent, child, size - below[child], below[child]) for parent, child in tree_bridges)
-    return cut_points, bridges
+    weight: float
+    documents: int | None
+    attestations: int | None
+    attestation_ids: list[int]
+    relation_ids: list[int]
+    single_document: bool
+
+
+def _has_document_ids(G: nx.Graph) -> bool:
+    return all("document_ids" in data for _, _, data in G.edges(data=True))
+
+
+def _graph_evidence(G: nx.Graph) -> Callable[[Hashable, Hashable], TieRecord]:
+    """Read a bridge's evidence off a networkx graph's edges (the two arcs merged on a directed one)."""
+    full = undirected_view(G)
+
+    def record(u: Hashable, v: Hashable) -> TieRecord:
+        data = full[u][v]
+        documents = data.get("documents")
+        single = documents == 1
+        if G.is_directed() and "document_ids" not in data:
+            # Without document ids the merged count is the larger arc's, a lower bound: flag only
+            # when both arcs together hold one document (direction=undirected counts exactly).
+            arcs = [G[a][b].get("documents", 0) for a, b in ((u, v), (v, u)) if G.has_edge(a, b)]
+            single = sum(arcs) == 1
+        return TieRecord(float(data.get("weight", 1.0)), documents, data.get("attestations"),
+                         list(data.get("attestation_ids", [])), list(data.get("relation_ids", [])), single)
+
+    return record
+
+
+def _weight_only(G: ArcGraph) -> Callable[[Hashable, Hashable], TieRecord]:
+    """Read only a bridge's weight (the larger of two opposite arcs) off an ArcGraph."""
+    H = G.working(weighted=True, loops="drop", undirected=True)
+    position = {node: i for i, node in enumerate(H.nodes)}
+    pair = {(min(int(a), int(b)), max(int(a), int(b))): float(w) for a, b, w in zip(H.source, H.target, H.weight)}
+
+    def record(u: Hashable, v: Hashable) -> TieRecord:
+        a, b = sorted((position[u], position[v]))
+        return TieRecord(pair[(a, b)], None, None, [], [], False)
+
+    return record

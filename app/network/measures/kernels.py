@@ -29,6 +29,7 @@ from __future__ import annotations
 import math
 import random
 import threading
+import weakref
 from collections.abc import Hashable, Iterable, Iterator
 from contextlib import contextmanager
 
@@ -43,9 +44,12 @@ __all__ = [
     "betweenness",
     "betweenness_by_source",
     "closeness",
+    "cut_structure",
     "harmonic",
     "leiden",
     "louvain",
+    "maximal_cliques",
+    "modularity",
     "path_lengths",
     "sampled_path_lengths",
     "to_igraph",
@@ -53,6 +57,9 @@ __all__ = [
 ]
 
 _RNG_LOCK = threading.Lock()
+LEIDEN_PASSES = 10
+"""Passes of the Leiden method (see ``leiden``)."""
+_CONVERTED: weakref.WeakKeyDictionary = weakref.WeakKeyDictionary()  # ArcGraph -> {attribute: (igraph Graph, nodes)}
 
 
 def to_igraph(G: nx.Graph | ArcGraph, *, attribute: str | None = None) -> tuple[ig.Graph, list[Hashable]]:
@@ -64,17 +71,24 @@ def to_igraph(G: nx.Graph | ArcGraph, *, attribute: str | None = None) -> tuple[
     >>> g.vcount(), g.ecount(), nodes
     (3, 2, ['a', 'b', 'c'])
     """
-    if isinstance(G, ArcGraph):  # arrays already: no Python loop over the ties
-        g = ig.Graph(n=len(G), edges=np.column_stack([G.source, G.target]).tolist(), directed=G.directed)
-        if attribute is not None:
-            g.es[attribute] = (G.distance if attribute == DISTANCE else G.weight).astype(float).tolist()
-        return g, G.nodes
+    if isinstance(G, ArcGraph):  # arrays already: no Python loop over the ties; converted once per graph
+        known = _CONVERTED.setdefault(G, {})
+        if attribute not in known:
+            known[attribute] = _from_arrays(G, attribute)
+        return known[attribute]
     nodes = list(G)
     index = {node: i for i, node in enumerate(nodes)}
     g = ig.Graph(n=len(nodes), edges=[(index[u], index[v]) for u, v in G.edges()], directed=G.is_directed())
     if attribute is not None:
         g.es[attribute] = [float(data[attribute]) for _, _, data in G.edges(data=True)]
     return g, nodes
+
+
+def _from_arrays(G: ArcGraph, attribute: str | None) -> tuple[ig.Graph, list[Hashable]]:
+    g = ig.Graph(n=len(G), edges=np.column_stack([G.source, G.target]), directed=G.directed)
+    if attribute is not None:
+        g.es[attribute] = (G.distance if attribute == DISTANCE else G.weight).astype(float).tolist()
+    return g, G.nodes
 
 
 def betweenness(G: nx.Graph, *, distance: str | None = None) -> dict[Hashable, float]:
@@ -194,7 +208,9 @@ def louvain(G: nx.Graph, *, weight: str | None = None, seed: int = 0) -> list[li
 def leiden(G: nx.Graph, *, weight: str | None = None, seed: int = 0) -> list[list[Hashable]]:
     """Return the communities found by igraph's Leiden method (modularity) on an undirected G.
 
-    Iterates until a pass improves nothing.
+    ``LEIDEN_PASSES`` passes, each of which can only keep or improve the partition. Running
+    until a pass changes nothing took 2 to 3 s on a generated network of 20,000 persons and
+    166,000 ties, ten passes 0.6 s, and both reached the same modularity to three decimals.
 
     References
     ----------
@@ -208,8 +224,106 @@ def leiden(G: nx.Graph, *, weight: str | None = None, seed: int = 0) -> list[lis
     """
     g, nodes = to_igraph(G, attribute=weight)
     with _seeded(seed):
-        membership = g.community_leiden(objective_function="modularity", weights=weight, n_iterations=-1).membership
+        membership = g.community_leiden(objective_function="modularity", weights=weight, n_iterations=LEIDEN_PASSES).membership
     return _groups(nodes, membership)
+
+
+def cut_structure(H: ArcGraph) -> tuple[list[tuple[int, list[int], int]], list[tuple[int, int, int, int]]]:
+    """Return the cut points and bridges of an undirected H without loops, with the sizes of the pieces.
+
+    As networkx's ``articulation_points`` and ``bridges``, with for each cut point (its
+    position) the sizes of the pieces its removal leaves of its component, largest first, and
+    the component's size; for each bridge its two ends (positions) and the persons on each
+    side once it is gone. igraph finds the blocks (biconnected components) and the cut points;
+    the pieces are read off the block-cut tree (a cut point's pieces are its subtrees in it).
+
+    References
+    ----------
+    Hopcroft, J., & Tarjan, R. (1973). Algorithm 447: efficient algorithms for graph
+    manipulation. Communications of the ACM 16(6), 372-378.
+
+    Examples
+    --------
+    >>> H = ArcGraph.from_networkx(nx.Graph([(0, 1), (1, 2), (2, 0), (2, 3), (3, 4), (4, 5), (5, 3)]))
+    >>> cut_structure(H)
+    ([(2, [3, 2], 6), (3, [3, 2], 6)], [(2, 3, 3, 3)])
+    """
+    g, _ = to_igraph(H)
+    membership = np.asarray(g.connected_components().membership, dtype=np.int64)
+    component_size = np.bincount(membership) if len(membership) else np.zeros(0, dtype=np.int64)
+    blocks, points = g.biconnected_components(return_articulation_points=True)
+    blocks = list(blocks)
+    tree_of = {v: len(blocks) + i for i, v in enumerate(points)}  # the tree: blocks first, then cut points
+    neighbours: list[list[int]] = [[] for _ in range(len(blocks) + len(points))]
+    weight = [0] * len(blocks) + [1] * len(points)  # persons a tree node stands for (a block: those of no other)
+    for b, members in enumerate(blocks):
+        for v in members:
+            if v in tree_of:
+                neighbours[b].append(tree_of[v])
+                neighbours[tree_of[v]].append(b)
+            else:
+                weight[b] += 1
+    parent = [-2] * len(neighbours)
+    below = list(weight)
+    for root in range(len(neighbours)):
+        if parent[root] != -2:
+            continue
+        parent[root], order, stack = -1, [], [root]
+        while stack:
+            t = stack.pop()
+            order.append(t)
+            for w in neighbours[t]:
+                if parent[w] == -2:
+                    parent[w] = t
+                    stack.append(w)
+        for t in reversed(order[1:]):
+            below[parent[t]] += below[t]
+    cut_points = []
+    for v in points:
+        t, size = tree_of[v], int(component_size[membership[v]])
+        pieces = [below[w] for w in neighbours[t] if parent[w] == t] + ([size - below[t]] if parent[t] >= 0 else [])
+        cut_points.append((int(v), sorted(pieces, reverse=True), size))
+    block_of = {frozenset(members): b for b, members in enumerate(blocks) if len(members) == 2}
+    bridges = []
+    for edge in g.bridges():
+        u, v = g.es[edge].tuple
+        b, size = block_of[frozenset((u, v))], int(component_size[membership[u]])
+
+        def side(x: int) -> int:  # persons on x's side once the bridge is gone
+            t = tree_of.get(x)
+            if t is None:  # x is in no other block
+                return 1
+            return below[t] if parent[t] == b else size - below[b]  # x's other blocks hang below b, or b below x
+
+        bridges.append((int(u), int(v), side(u), side(v)))
+    return cut_points, bridges
+
+
+def maximal_cliques(H: ArcGraph, *, min_size: int, limit: int) -> tuple[list[list[int]], bool]:
+    """Return up to ``limit`` maximal cliques (positions) of at least ``min_size`` persons, and whether that is all.
+
+    As networkx's ``find_cliques`` on an undirected H without loops, keeping those of
+    ``min_size`` or more; igraph searches only the (min_size - 1)-core, where every such clique lies.
+    """
+    g, _ = to_igraph(H)
+    core = [v for v, k in enumerate(g.coreness()) if k >= min_size - 1]
+    sub = g.induced_subgraph(core)
+    found = sub.maximal_cliques(min=min_size, max_results=limit + 1)
+    return [sorted(core[v] for v in clique) for clique in found[:limit]], len(found) <= limit
+
+
+def modularity(H: ArcGraph, groups: list[list[int]]) -> float:
+    """Return the modularity of a partition (positions) of an undirected H, as networkx's ``community.modularity``.
+
+    The ``weight`` of each tie counts; a loop adds its weight inside its person's community and
+    twice to that person's strength, in both libraries.
+    """
+    g, _ = to_igraph(H, attribute="weight")
+    membership = [0] * len(H)
+    for number, members in enumerate(groups):
+        for v in members:
+            membership[v] = number
+    return float(g.modularity(membership, weights="weight"))
 
 
 def path_lengths(G: nx.Graph) -> tuple[int, float | None]:

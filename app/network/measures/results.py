@@ -80,13 +80,13 @@ class MeasureResult:
 
     def rows(self, tolerance: float = RANK_TOLERANCE) -> list[RankedRow]:
         """Return the ranked table: highest value first, ties within ``tolerance`` sharing a rank."""
-        return [
-            RankedRow(row.node, row.value, row.rank, self.raw.get(row.node), self.reasons.get(row.node))
-            for row in rank_rows(self.values, tolerance)
-        ]
+        return rank_rows(self.values, tolerance, raw=self.raw, reasons=self.reasons)
 
 
-def rank_rows(values: Mapping[Hashable, float | None], tolerance: float = RANK_TOLERANCE) -> list[RankedRow]:
+def rank_rows(
+    values: Mapping[Hashable, float | None], tolerance: float = RANK_TOLERANCE, *,
+    raw: Mapping[Hashable, float | None] | None = None, reasons: Mapping[Hashable, str] | None = None,
+) -> list[RankedRow]:
     """Return the nodes ranked by value, highest first, with competition ranks and ties.
 
     A node's rank is one more than the number of nodes whose value is clearly greater, that is
@@ -102,6 +102,8 @@ def rank_rows(values: Mapping[Hashable, float | None], tolerance: float = RANK_T
         The value of each node.
     tolerance : float, optional (default 1e-9)
         Relative tolerance within which two values tie.
+    raw, reasons : mapping, optional
+        Each node's raw figure and reason, carried into its row.
 
     Returns
     -------
@@ -114,17 +116,20 @@ def rank_rows(values: Mapping[Hashable, float | None], tolerance: float = RANK_T
     """
     if not 0 <= tolerance < 1:
         raise MeasureError("tolerance", tolerance, "a number from 0 up to (not including) 1")
+    raw, reasons = raw or {}, reasons or {}
+    keys = {node: node_key(node) for node in values}
     defined = [(node, v) for node, v in values.items() if v is not None and not math.isnan(v)]
     undefined = [node for node, v in values.items() if v is None or math.isnan(v)]
-    defined.sort(key=lambda item: (-item[1], node_key(item[0])))
-    rows: list[RankedRow] = []
+    defined.sort(key=lambda item: (-item[1], keys[item[0]]))
+    ranked: list[tuple[int, Hashable, float]] = []
     greater = 0  # defined[:greater] are clearly greater than the current value
     for index, (node, value) in enumerate(defined):
         while greater < index and _clearly_greater(defined[greater][1], value, tolerance):
             greater += 1
-        rows.append(RankedRow(node, value, greater + 1))
-    rows.sort(key=lambda row: (row.rank, node_key(row.node)))
-    rows.extend(RankedRow(node, None, None) for node in sorted(undefined, key=node_key))
+        ranked.append((greater + 1, node, value))
+    ranked.sort(key=lambda item: (item[0], keys[item[1]]))
+    rows = [RankedRow(node, value, rank, raw.get(node), reasons.get(node)) for rank, node, value in ranked]
+    rows.extend(RankedRow(node, None, None, raw.get(node), reasons.get(node)) for node in sorted(undefined, key=keys.__getitem__))
     return rows
 
 

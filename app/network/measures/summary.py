@@ -12,10 +12,11 @@ from collections.abc import Hashable, Mapping
 from dataclasses import dataclass
 
 import networkx as nx
+import numpy as np
 
 from app.network.measures import kernels
-from app.network.measures.conventions import induced, population_sentence, working_graph
-from app.network.measures.results import node_key
+from app.network.measures.arcs import ArcGraph, component_labels, degrees
+from app.network.measures.conventions import population_sentence, working_graph
 
 __all__ = [
     "FEW_PERSONS",
@@ -86,7 +87,7 @@ class NetworkSummary:
 
 
 def summarize(
-    G: nx.Graph, *, node_set: str | None = None, collection_counts: Mapping[str, int] | None = None,
+    G: nx.Graph | ArcGraph, *, node_set: str | None = None, collection_counts: Mapping[str, int] | None = None,
     exact_paths: bool | None = None,
 ) -> NetworkSummary:
     """Return the summary of a slice's graph, with warnings.
@@ -109,24 +110,30 @@ def summarize(
     >>> summary.ties, summary.density, summary.diameter, summary.degree_distribution
     (3, 0.5, 3, {1: 2, 2: 2})
     """
-    n = G.number_of_nodes()
-    directed = G.is_directed()
-    plain = working_graph(G, loops="drop")
-    undirected = working_graph(G, loops="drop", undirected=True)
+    arcs = G if isinstance(G, ArcGraph) else ArcGraph.from_networkx(G)
+    n = len(arcs)
+    directed = arcs.is_directed()
+    plain = working_graph(arcs, loops="drop")
+    undirected = working_graph(arcs, loops="drop", undirected=True)
     ties = plain.number_of_edges()
     possible = n * (n - 1) if directed else n * (n - 1) / 2
-    parts = sorted((sorted(c, key=node_key) for c in nx.connected_components(undirected)), key=lambda c: (-len(c), node_key(c[0])))
-    largest = parts[0] if parts else []
-    exact = exact_paths if exact_paths is not None else len(largest) <= EXACT_PATHS_UP_TO
+    labels = component_labels(undirected)
+    sizes = np.bincount(labels) if n else np.zeros(0, dtype=np.int64)
+    first = np.full(len(sizes), n, dtype=np.int64)
+    np.minimum.at(first, labels, np.arange(n))  # persons come ids ascending: a component's first member
+    order = sorted(range(len(sizes)), key=lambda c: (-int(sizes[c]), int(first[c])))
+    parts = [int(sizes[c]) for c in order]
+    largest = parts[0] if parts else 0
+    exact = exact_paths if exact_paths is not None else largest <= EXACT_PATHS_UP_TO
     diameter, average = None, None
     if largest:
-        component = induced(undirected, set(largest)) if len(parts) > 1 else undirected
+        component = undirected.subgraph(labels == order[0]) if len(parts) > 1 else undirected
         diameter, average = (kernels.path_lengths(component) if exact
                              else kernels.sampled_path_lengths(component, sources=PATH_SOURCES, seed=0))
     transitivity, clustering = kernels.transitivity(undirected)
     warnings = [w for w in (small_slice_warning(n, ties), collection_warning(collection_counts or {})) if w]
-    path_part = (f"Diameter and average path length are those of the largest component ({len(largest)} of {n} persons"
-                 + (", the first of several of that size" if len(parts) > 1 and len(parts[1]) == len(largest) else "")
+    path_part = (f"Diameter and average path length are those of the largest component ({largest} of {n} persons"
+                 + (", the first of several of that size" if len(parts) > 1 and parts[1] == largest else "")
                  + "), counted in ties.") if largest else ""
     conventions = " ".join(s for s in [
         population_sentence(n, node_set),
@@ -135,21 +142,22 @@ def summarize(
         + (" (two opposite arcs are one tie)." if directed else "."),
         path_part,
         "" if exact or not largest else (
-            f"Both are estimated from the distances of {min(PATH_SOURCES, len(largest))} persons drawn at random "
+            f"Both are estimated from the distances of {min(PATH_SOURCES, largest)} persons drawn at random "
             "(seed 0) to everyone in that component; the diameter shown is the longest distance found, "
             "so the true one may be larger."),
     ] if s)
     return NetworkSummary(
-        persons=n, ties=ties, loops=nx.number_of_selfloops(G), attestations=_attestations(G), directed=directed,
+        persons=n, ties=ties, loops=int(np.count_nonzero(arcs.source == arcs.target)),
+        attestations=None if isinstance(G, ArcGraph) else _attestations(G), directed=directed,
         density=ties / possible if n > 1 else None,
-        reciprocity=nx.overall_reciprocity(plain) if directed and ties else None,
+        reciprocity=_reciprocity(plain) if directed and ties else None,
         transitivity=transitivity, average_clustering=clustering,
-        components=len(parts), largest_component=len(largest), largest_share=len(largest) / n if n else None,
+        components=len(parts), largest_component=largest, largest_share=largest / n if n else None,
         diameter=diameter, average_path_length=average,
-        degree_distribution=_distribution(d for _, d in undirected.degree()),
-        in_degree_distribution=_distribution(d for _, d in plain.in_degree()) if directed else None,
-        out_degree_distribution=_distribution(d for _, d in plain.out_degree()) if directed else None,
-        warnings=warnings, conventions=conventions, path_sources=None if exact or not largest else min(PATH_SOURCES, len(largest)),
+        degree_distribution=_distribution(degrees(undirected).values()),
+        in_degree_distribution=_distribution(degrees(plain, way="in").values()) if directed else None,
+        out_degree_distribution=_distribution(degrees(plain, way="out").values()) if directed else None,
+        warnings=warnings, conventions=conventions, path_sources=None if exact or not largest else min(PATH_SOURCES, largest),
     )
 
 
@@ -190,6 +198,13 @@ def collection_warning(counts: Mapping[str, int], share: float = ONE_COLLECTION_
         return None
     return (f"{top / total:.0%} of the attestations ({top} of {total}) come from one collection, {name}: "
             "the network may show what that collection kept rather than all that happened.")
+
+
+def _reciprocity(H: ArcGraph) -> float:
+    """Share of the arcs whose opposite arc is there too, as networkx's ``overall_reciprocity`` (loops left out)."""
+    span = len(H) + 1
+    forward, backward = H.source * span + H.target, H.target * span + H.source
+    return float(np.count_nonzero(np.isin(forward, backward)) / len(forward))
 
 
 def _attestations(G: nx.Graph) -> int | None:

@@ -52,6 +52,7 @@ from app.models import (
     Source,
 )
 from app.names import fold
+from app.store.privacy import RestrictedPersons
 
 MAX_PROBLEMS = 200
 Progress = Callable[[int, int], None]  # called with (rows done, rows in all) while an import runs
@@ -1277,14 +1278,17 @@ def _signature_of_fields(fields: dict[str, Any], target_column: str) -> bytes:
 # --- exporting ---------------------------------------------------------------------------
 
 
-def export_workbook(session: Session, folder: str | Path) -> dict[str, int]:
+def export_workbook(session: Session, folder: str | Path, *, leave_out: RestrictedPersons | None = None) -> dict[str, int]:
     """Write every workbook file of the dataset into ``folder``; return the row count per file.
 
     Soft-deleted attestations are left out: they stay in the database and its audit trail.
+    With ``leave_out`` (the restricted persons, see ``app.store.privacy``), their persons rows and
+    every relation, membership and fact row naming them are left out, and their keys and
+    spellings in the remaining cells become "restricted" / "restricted person".
     """
     folder = Path(folder)
     folder.mkdir(parents=True, exist_ok=True)
-    tables = _export_rows(session)
+    tables = _export_rows(session, leave_out or None)
     for name, rows in tables.items():
         with open(folder / name, "w", encoding="utf-8", newline="") as handle:
             writer = csv.writer(handle, lineterminator="\n")
@@ -1302,7 +1306,19 @@ def _number(value: float | None) -> str | None:
     return None if value is None else repr(value)
 
 
-def _export_rows(s: Session) -> dict[str, list[dict[str, Any]]]:
+def _export_rows(s: Session, leave_out: RestrictedPersons | None = None) -> dict[str, list[dict[str, Any]]]:
+    out = _all_export_rows(s)
+    if leave_out is None:
+        return out
+    hidden = {key.lower() for key in leave_out.keys}
+    naming = {"persons.csv": ("key",), "relations.csv": ("person", "other"), "memberships.csv": ("person",),
+              "facts.csv": ("person",)}
+    return {name: [{column: (leave_out.hide_in(value) if isinstance(value, str) else value) for column, value in row.items()}
+                   for row in rows if not any((row.get(c) or "").lower() in hidden for c in naming.get(name, ()))]
+            for name, rows in out.items()}
+
+
+def _all_export_rows(s: Session) -> dict[str, list[dict[str, Any]]]:
     place = dict(s.execute(select(Place.id, Place.key)).all())
     repository = dict(s.execute(select(Repository.id, Repository.key)).all())
     collection = dict(s.execute(select(Collection.id, Collection.key)).all())

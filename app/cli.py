@@ -13,6 +13,7 @@ import shutil
 import sys
 import tempfile
 from collections.abc import Callable
+from dataclasses import replace
 from functools import wraps
 from pathlib import Path
 
@@ -380,8 +381,10 @@ def restore(database: str | None, backup_file: Path) -> None:
 @db_option
 @click.option("--host", default="127.0.0.1", show_default=True, help="Address to listen on.")
 @click.option("--port", default=8000, show_default=True, type=int, help="Port to listen on.")
+@click.option("--workers", default=1, show_default=True, type=click.IntRange(1, 64),
+              help="Server processes answering requests (uvicorn workers); the background measure worker runs once.")
 @reports_problems
-def serve(database: str | None, host: str, port: int) -> None:
+def serve(database: str | None, host: str, port: int, workers: int) -> None:
     """Serve the web pages and the JSON API with uvicorn."""
     import uvicorn
 
@@ -394,12 +397,24 @@ def serve(database: str | None, host: str, port: int) -> None:
     if refusal:
         _fail(refusal)
     os.environ["ATTESTA_DATABASE_URL"] = settings.database_url
-    click.echo(f"serving {settings.database_url} on http://{host}:{port}/")
-    # X-Forwarded-* headers are believed only from configured proxies (uvicorn would otherwise
-    # believe them from 127.0.0.1, so anyone on this machine could pose as another client).
+    os.environ["ATTESTA_SERVER_PROCESSES"] = str(workers)
+    if workers > 1 and not settings.secret_key:  # one key for every process, so each accepts the others' cookies
+        os.environ["ATTESTA_SECRET_KEY"] = secrets.token_urlsafe(32)
+    click.echo(f"serving {settings.database_url} on http://{host}:{port}/"
+               + (f" with {workers} server processes" if workers > 1 else ""))
+    options = uvicorn_options(settings)
+    if workers == 1:
+        uvicorn.run(create_app(replace(settings, server_processes=1)), host=host, port=port, **options)
+    else:  # each process builds its app from the environment set above
+        uvicorn.run("app.main:app_from_env", factory=True, host=host, port=port, workers=workers, **options)
+
+
+def uvicorn_options(settings: Settings) -> dict:
+    """Options of uvicorn for ``settings``: X-Forwarded-* headers are believed only from the configured
+    trusted proxies, never by default (uvicorn alone would believe them from 127.0.0.1, so anyone on this
+    machine could pose as another client or as https)."""
     proxies = list(settings.trusted_proxies)
-    uvicorn.run(create_app(settings), host=host, port=port, log_level="warning",
-                proxy_headers=bool(proxies), forwarded_allow_ips=proxies or None)
+    return {"log_level": "warning", "proxy_headers": bool(proxies), "forwarded_allow_ips": proxies or []}
 
 
 # --- accounts ------------------------------------------------------------------------------------

@@ -815,7 +815,7 @@ class _Importer:
         current = self.session.execute(select(*[table.c[c] for c in values]).where(table.c.id == ref.id)).one()
         changes = {c: v for (c, v), old in zip(values.items(), current) if old != v}
         if changes:
-            self.session.execute(table.update().where(table.c.id == ref.id).values(**changes))
+            self.session.execute(table.update().where(table.c.id == ref.id).values(**changes, **_bumped(table)))
             self.count(row, "changed")
         else:
             self.count(row, "unchanged")
@@ -928,6 +928,9 @@ class _Importer:
                 self.problem(row, "identifiers", f"{scheme}:{value} already belongs to another person")
         if added:
             self.count_as_changed(row)
+            table = Person.__table__
+            if not self.pending.is_new(table, person_id):  # a new spelling or identifier is an edit of the person
+                self.session.execute(table.update().where(table.c.id == person_id).values(**_bumped(table)))
 
     def _identifiers(self, row: Row) -> list[tuple[str, str]]:
         found = []
@@ -1033,7 +1036,7 @@ class _Importer:
             if self.pending.is_new(table, record_id) and value is None:
                 continue  # a new record refers to nothing: already so
             if self.session.execute(select(table.c[column]).where(table.c.id == record_id)).scalar_one() != value:
-                self.session.execute(table.update().where(table.c.id == record_id).values({column: value}))
+                self.session.execute(table.update().where(table.c.id == record_id).values({column: value}, **_bumped(table)))
                 self.count_as_changed(row)
         if file == "sources.csv" and self.writing:
             self._check_copies_name_originals()
@@ -1093,7 +1096,7 @@ class _Importer:
             current = self.session.execute(select(*[table.c[c] for c in columns]).where(table.c.id == att_id)).one()
             changes = {c: fields[c] for c, old in zip(columns, current) if old != fields[c]}
             if changes:
-                self.session.execute(table.update().where(table.c.id == att_id).values(**changes))
+                self.session.execute(table.update().where(table.c.id == att_id).values(**changes, **_bumped(table)))
                 self.count(row, "changed")
                 # a keyless row later in this import must match the attestation as it is now
                 old = self.signature_of.pop(att_id, None)
@@ -1188,7 +1191,7 @@ class _Importer:
                 self.term_lines.setdefault(membership["id"], row.line)
             if any(membership[c] != v for c, v in given.items()):
                 self.pending.before_reading(table)
-                self.session.execute(table.update().where(table.c.id == membership["id"]).values(**given))
+                self.session.execute(table.update().where(table.c.id == membership["id"]).values(**given, **_bumped(table)))
                 membership.update(given)
                 self._write_attestation(row, "membership_id", membership["id"], {**fields, "name_a_as_written": None, "name_b_as_written": None})
                 self.count_as_changed(row)
@@ -1249,6 +1252,12 @@ class _Importer:
                 self.session.execute(
                     update(Attestation).where(Attestation.id == att_id).values(earliest=interval.earliest, latest=interval.latest)
                 )
+
+def _bumped(table: Any) -> dict[str, Any]:
+    """The version bump of a keyed update of a record that forms edit (persons, sources, groups, ...): an editor
+    who opened the form before the import is then refused, not allowed to overwrite it silently."""
+    return {"version": table.c.version + 1} if "version" in table.c else {}
+
 
 def _target_of(att: Any) -> tuple[str, int]:
     if att.relation_id is not None:

@@ -216,6 +216,10 @@ def _check_version(session: Session, *, table: str, key: str, stored: int, loade
         if isinstance(before, dict) and before.get("version") == loaded_version:
             was, by = before, actor
             break
+    if was is None:  # moved on by a workbook import, which is one audit entry for all its rows
+        importer = session.scalar(select(AuditEntry.actor).where(AuditEntry.action == "import")
+                                  .order_by(AuditEntry.id.desc()).limit(1))
+        by = f"an import by {importer}" if importer else None
     changes = [
         FieldChange(name, None if was is None else was.get(name), value)
         for name, value in now.items()

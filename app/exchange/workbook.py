@@ -1036,7 +1036,7 @@ class _Importer:
             if self.pending.is_new(table, record_id) and value is None:
                 continue  # a new record refers to nothing: already so
             if self.session.execute(select(table.c[column]).where(table.c.id == record_id)).scalar_one() != value:
-                self.session.execute(table.update().where(table.c.id == record_id).values({column: value}, **_bumped(table)))
+                self.session.execute(table.update().where(table.c.id == record_id).values({column: value, **_bumped(table)}))
                 self.count_as_changed(row)
         if file == "sources.csv" and self.writing:
             self._check_copies_name_originals()

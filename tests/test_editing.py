@@ -411,3 +411,42 @@ def test_an_import_that_adds_a_spelling_moves_the_persons_version_on(client, dat
         {"key": "P1", "name": "Person 1", "variants": "Persona Una"}]}), size_limit=10**8, actor="edmund")
     with database.read() as session:
         assert session.scalar(select(Person.version).where(Person.key == "P1")) > before
+
+
+# --- groups ------------------------------------------------------------------------------------
+
+
+def test_a_group_is_created_and_edited_with_its_version_and_audit(client, database):
+    answer = post(client, "/new/group", key="g-guild", name="Guild of Printers", kind="guild", start="1702")
+    assert answer.status_code == 303 and answer.headers["location"] == "/groups/g-guild"
+    assert post(client, "/new/group", key="g-lodge", name="Lodge", parent="g-guild", end="1740").status_code == 303
+    group = client.get("/api/groups/g-lodge").json()["group"]
+    assert group["name"] == "Lodge" and group["ancestors"][-1]["key"] == "g-guild"
+    version = re.search(r'name="version" value="(\d+)"', client.get("/groups/g-guild/edit").text).group(1)
+    assert post(client, "/groups/g-guild/edit", version=version, name="Guild of Printers and Binders",
+                kind="guild", start="1702").status_code == 303
+    assert client.get("/api/groups/g-guild").json()["group"]["name"] == "Guild of Printers and Binders"
+    [created, edited] = audit_of(database, "group", "g-guild")
+    assert created.action == "create" and edited.action == "update"
+    assert json.loads(edited.before_json)["name"] == "Guild of Printers"
+    assert json.loads(edited.after_json)["name"] == "Guild of Printers and Binders"
+    # a second editor on the old version is refused, with what changed
+    answer = post(client, "/groups/g-guild/edit", version=version, name="Printers' Guild")
+    assert answer.status_code == 409 and 'data-field="name"' in answer.text and "Nothing was saved" in answer.text
+    assert client.get("/api/groups/g-guild").json()["group"]["name"] == "Guild of Printers and Binders"
+
+
+def test_a_refused_group_form_names_each_field_and_writes_nothing(client, database):
+    post(client, "/new/group", key="g-guild", name="Guild")
+    before = counts(database)
+    answer = post(client, "/new/group", key="g-guild", name="", place="nowhere", parent="g-none", start="17th century")
+    assert answer.status_code == 422
+    for name in ("key", "name", "place", "parent", "start"):
+        assert field_error(answer.text, name), name
+    assert counts(database) == before
+    version = re.search(r'name="version" value="(\d+)"', client.get("/groups/g-guild/edit").text).group(1)
+    post(client, "/new/group", key="g-inner", name="Inner", parent="g-guild")
+    before = counts(database)
+    answer = post(client, "/groups/g-guild/edit", version=version, name="Guild", parent="g-inner")
+    assert answer.status_code == 422 and "inside it" in field_error(answer.text, "parent")
+    assert counts(database) == before

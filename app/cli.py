@@ -13,6 +13,7 @@ import shutil
 import sys
 import tempfile
 from collections.abc import Callable
+from dataclasses import replace
 from functools import wraps
 from pathlib import Path
 
@@ -25,6 +26,7 @@ from app.config import Settings
 from app.db import Database, DatabaseError, check_schema, upgrade
 from app.exchange.workbook import WorkbookError, export_workbook, import_workbook
 from app.models import ROLES
+from app.store.privacy import RestrictedPersons
 from app.store.users import UserError, count_users, create_user, disable_user, list_users
 
 MIN_PASSWORD = 10
@@ -101,16 +103,52 @@ def import_command(database: str | None, workbook: Path) -> None:
     click.echo(f"data version {report.data_version}" + ("" if report.changed_anything else " (nothing changed)"))
 
 
+def restricted_options(command: Callable) -> Callable:
+    """``--include-restricted`` and ``--as-user``: who asks for the restricted persons in an export."""
+    command = click.option(
+        "--as-user", "as_user", metavar="NAME", default=None,
+        help="The user the export is made for; it is made as that user's role may have it.")(command)
+    return click.option(
+        "--include-restricted", is_flag=True,
+        help="Keep restricted persons (recorded as living, or born too recently) in the files. Only for an admin: "
+             "give --as-user NAME of an enabled admin once the instance has users.")(command)
+
+
+def _left_out(settings: Settings, db: Database, *, include: bool, as_user: str | None) -> RestrictedPersons | None:
+    """Return the restricted persons an export leaves out (None: an admin asked for them), or stop with why not."""
+    from app.store.privacy import list_restricted_persons
+    from app.store.users import get_user
+
+    with db.read() as session:
+        user = get_user(session=session, name=as_user) if as_user else None
+        if as_user and (user is None or user.disabled):
+            _fail(f"--as-user: no enabled user named {as_user!r} (see `attesta user list`)")
+        if include:
+            if user is None and count_users(session=session, enabled_only=False) > 0:
+                _fail("--include-restricted: only an admin may export restricted persons; give --as-user NAME of an "
+                      "enabled admin")
+            if user is not None and user.role != "admin":
+                _fail(f"--include-restricted: {user.name} is {user.role}; only an admin may export restricted persons")
+            return None
+        restricted = list_restricted_persons(session=session, living_years=settings.living_years)
+    if restricted:
+        click.echo(f"left out: {len(restricted.ids)} restricted persons (recorded as living, or born too recently) "
+                   "and every relation, membership and fact naming them")
+    return restricted or None
+
+
 @main.command()
 @db_option
+@restricted_options
 @click.argument("folder", type=click.Path(path_type=Path))
 @reports_problems
-def export(database: str | None, folder: Path) -> None:
-    """Export the whole dataset as a workbook folder (keys filled in)."""
-    _, db = _open(database)
+def export(database: str | None, include_restricted: bool, as_user: str | None, folder: Path) -> None:
+    """Export the whole dataset as a workbook folder (keys filled in), without restricted persons unless an admin asks."""
+    settings, db = _open(database)
     check_schema(db)
+    leave_out = _left_out(settings, db, include=include_restricted, as_user=as_user)
     with db.read() as session:
-        counts = export_workbook(session, folder)
+        counts = export_workbook(session, folder, leave_out=leave_out)
     for name, n in counts.items():
         click.echo(f"{name}: {n} rows")
 
@@ -182,16 +220,19 @@ def import_graphml_command(database: str | None, file: Path, source_title: str, 
 @main.command(name="export-graphml")
 @db_option
 @slice_option
+@restricted_options
 @click.argument("output", type=click.Path(path_type=Path))
 @reports_problems
-def export_graphml_command(database: str | None, slice_query: str, output: Path) -> None:
-    """Write the slice as GraphML."""
+def export_graphml_command(database: str | None, slice_query: str, include_restricted: bool, as_user: str | None,
+                           output: Path) -> None:
+    """Write the slice as GraphML (without restricted persons unless an admin asks)."""
     from app.exchange.network_export import slice_export, to_graphml
 
-    _, db = _open(database)
+    settings, db = _open(database)
     check_schema(db)
+    leave_out = _left_out(settings, db, include=include_restricted, as_user=as_user)
     with db.read() as session:
-        export = slice_export(session, _slice(slice_query))
+        export = slice_export(session, _slice(slice_query), leave_out=leave_out)
     output.write_bytes(to_graphml(export))
     click.echo(f"{output}: {len(export.nodes)} persons, {len(export.edges)} ties (data version {export.data_version})")
 
@@ -199,20 +240,24 @@ def export_graphml_command(database: str | None, slice_query: str, output: Path)
 @main.command(name="export-tables")
 @db_option
 @slice_option
+@restricted_options
 @click.argument("folder", type=click.Path(path_type=Path))
 @reports_problems
-def export_tables_command(database: str | None, slice_query: str, folder: Path) -> None:
-    """Write the slice's persons, ties, adjacency matrix (CSV) and sources (CSL-JSON) into a folder."""
+def export_tables_command(database: str | None, slice_query: str, include_restricted: bool, as_user: str | None,
+                          folder: Path) -> None:
+    """Write the slice's persons, ties, adjacency matrix (CSV) and sources (CSL-JSON) into a folder
+    (without restricted persons unless an admin asks)."""
     import json
 
     from app.exchange.csl import csl_items
     from app.exchange.network_export import adjacency_csv, edges_csv, nodes_csv, slice_export
 
-    _, db = _open(database)
+    settings, db = _open(database)
     check_schema(db)
+    leave_out = _left_out(settings, db, include=include_restricted, as_user=as_user)
     folder.mkdir(parents=True, exist_ok=True)
     with db.read() as session:
-        export = slice_export(session, _slice(slice_query))
+        export = slice_export(session, _slice(slice_query), leave_out=leave_out)
         items = csl_items(session, keys={k for e in export.edges for k in e.source_keys})
     (folder / "persons.csv").write_text(nodes_csv(export), encoding="utf-8")
     (folder / "ties.csv").write_text(edges_csv(export), encoding="utf-8")
@@ -224,16 +269,21 @@ def export_tables_command(database: str | None, slice_query: str, folder: Path) 
 @main.command()
 @db_option
 @slice_option
+@restricted_options
 @click.argument("output", type=click.Path(path_type=Path))
 @reports_problems
-def snapshot(database: str | None, slice_query: str, output: Path) -> None:
-    """Write a citable snapshot .zip (workbook, slice, stored measures, README, content hash)."""
+def snapshot(database: str | None, slice_query: str, include_restricted: bool, as_user: str | None,
+             output: Path) -> None:
+    """Write a citable snapshot .zip (workbook, slice, stored measures, README, content hash), without restricted
+    persons unless an admin asks."""
     from app.exchange.snapshot import snapshot_bytes
 
     settings, db = _open(database)
     check_schema(db)
+    leave_out = _left_out(settings, db, include=include_restricted, as_user=as_user)
     with db.read() as session:
-        data, cited = snapshot_bytes(session, _slice(slice_query), dataset_name=settings.dataset_name)
+        data, cited = snapshot_bytes(session, _slice(slice_query), dataset_name=settings.dataset_name,
+                                     leave_out=leave_out)
     output.write_bytes(data)
     click.echo(f"{output}: dataset version {cited.sha256}")
     click.echo(f"{cited.persons} persons, {cited.sources} sources, {cited.relations} relations, "
@@ -331,8 +381,10 @@ def restore(database: str | None, backup_file: Path) -> None:
 @db_option
 @click.option("--host", default="127.0.0.1", show_default=True, help="Address to listen on.")
 @click.option("--port", default=8000, show_default=True, type=int, help="Port to listen on.")
+@click.option("--workers", default=1, show_default=True, type=click.IntRange(1, 64),
+              help="Server processes answering requests (uvicorn workers); the background measure worker runs once.")
 @reports_problems
-def serve(database: str | None, host: str, port: int) -> None:
+def serve(database: str | None, host: str, port: int, workers: int) -> None:
     """Serve the web pages and the JSON API with uvicorn."""
     import uvicorn
 
@@ -345,12 +397,24 @@ def serve(database: str | None, host: str, port: int) -> None:
     if refusal:
         _fail(refusal)
     os.environ["ATTESTA_DATABASE_URL"] = settings.database_url
-    click.echo(f"serving {settings.database_url} on http://{host}:{port}/")
-    # X-Forwarded-* headers are believed only from configured proxies (uvicorn would otherwise
-    # believe them from 127.0.0.1, so anyone on this machine could pose as another client).
+    os.environ["ATTESTA_SERVER_PROCESSES"] = str(workers)
+    if workers > 1 and not settings.secret_key:  # one key for every process, so each accepts the others' cookies
+        os.environ["ATTESTA_SECRET_KEY"] = secrets.token_urlsafe(32)
+    click.echo(f"serving {settings.database_url} on http://{host}:{port}/"
+               + (f" with {workers} server processes" if workers > 1 else ""))
+    options = uvicorn_options(settings)
+    if workers == 1:
+        uvicorn.run(create_app(replace(settings, server_processes=1)), host=host, port=port, **options)
+    else:  # each process builds its app from the environment set above
+        uvicorn.run("app.main:app_from_env", factory=True, host=host, port=port, workers=workers, **options)
+
+
+def uvicorn_options(settings: Settings) -> dict:
+    """Options of uvicorn for ``settings``: X-Forwarded-* headers are believed only from the configured
+    trusted proxies, never by default (uvicorn alone would believe them from 127.0.0.1, so anyone on this
+    machine could pose as another client or as https)."""
     proxies = list(settings.trusted_proxies)
-    uvicorn.run(create_app(settings), host=host, port=port, log_level="warning",
-                proxy_headers=bool(proxies), forwarded_allow_ips=proxies or None)
+    return {"log_level": "warning", "proxy_headers": bool(proxies), "forwarded_allow_ips": proxies or []}
 
 
 # --- accounts ------------------------------------------------------------------------------------

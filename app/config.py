@@ -44,6 +44,7 @@ class Settings:
     login_attempts: int = 5  # failed sign-ins in a row before a user name is locked
     lockout_minutes: float = 15.0  # first lock; each further failure doubles it (at most a day)
     living_years: int = 110  # born less than this many years ago and no death date: treated as living (0: off)
+    server_processes: int = 1  # server processes on this database (`attesta serve --workers N` sets it)
 
     @classmethod
     def from_env(cls, database: str | None = None) -> "Settings":
@@ -62,6 +63,7 @@ class Settings:
             login_attempts=int(os.environ.get("ATTESTA_LOGIN_ATTEMPTS", "5")),
             lockout_minutes=float(os.environ.get("ATTESTA_LOCKOUT_MINUTES", "15")),
             living_years=int(os.environ.get("ATTESTA_LIVING_YEARS", "110")),
+            server_processes=max(1, int(os.environ.get("ATTESTA_SERVER_PROCESSES", "1"))),
         )
 
 

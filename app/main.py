@@ -67,7 +67,8 @@ def create_app(settings: Settings) -> FastAPI:
         database.dispose()
         raise
 
-    worker = Worker(database)  # heavy measures run in one background process, started when needed
+    # heavy measures run in one background process, started when needed (by one of several server processes)
+    worker = Worker(database, shared=settings.server_processes > 1)
 
     @asynccontextmanager
     async def lifespan(_app: FastAPI) -> AsyncIterator[None]:

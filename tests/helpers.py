@@ -41,11 +41,13 @@ def free_port() -> int:
 
 
 @contextmanager
-def running_server(db_url: str, *, env: dict[str, str] | None = None, timeout: float = 20.0) -> Iterator[str]:
+def running_server(db_url: str, *, env: dict[str, str] | None = None, timeout: float = 20.0,
+                   workers: int = 1) -> Iterator[str]:
     """Run ``uvicorn app.main:app_from_env --factory`` on ``db_url``; yield its base URL, then stop it.
 
     ``env`` adds environment variables (``ATTESTA_DATASET_NAME``, ...). If the server does not
-    answer within ``timeout`` seconds, its output is part of the error.
+    answer within ``timeout`` seconds, its output is part of the error. ``workers`` above 1 runs
+    ``attesta serve --workers N`` instead (several server processes).
     """
     port = free_port()
     base_url = f"http://127.0.0.1:{port}"
@@ -53,6 +55,8 @@ def running_server(db_url: str, *, env: dict[str, str] | None = None, timeout: f
     command = [
         sys.executable, "-m", "uvicorn", "app.main:app_from_env", "--factory",
         "--host", "127.0.0.1", "--port", str(port), "--log-level", "warning",
+    ] if workers == 1 else [
+        sys.executable, "-m", "app.cli", "serve", "--db", db_url, "--port", str(port), "--workers", str(workers),
     ]  # fmt: skip
     with tempfile.TemporaryFile() as output:
         server = subprocess.Popen(command, cwd=ROOT, env=environment, stdout=output, stderr=subprocess.STDOUT)

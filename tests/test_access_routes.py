@@ -84,6 +84,8 @@ for method, template, path in [
     ("GET", "/memberships/{membership_id}/edit", "/memberships/1/edit"),
     ("POST", "/memberships/{membership_id}/edit", "/memberships/1/edit"),
     ("GET", "/merge", "/merge"), ("POST", "/merge", "/merge"),
+    ("GET", "/groups/{key}/edit", "/groups/g-society/edit"), ("POST", "/groups/{key}/edit", "/groups/g-society/edit"),
+    ("GET", "/new/group", "/new/group"), ("POST", "/new/group", "/new/group"),
     ("GET", "/new/membership", "/new/membership"), ("POST", "/new/membership", "/new/membership"),
     ("GET", "/new/person", "/new/person"), ("POST", "/new/person", "/new/person"),
     ("GET", "/new/relation", "/new/relation"), ("POST", "/new/relation", "/new/relation"),

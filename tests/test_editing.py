@@ -369,3 +369,84 @@ def test_writes_need_the_editor_role(client, database, role, status):
     assert refused.status_code == 403
     if role == "editor":
         assert audit_of(database, "person", "P9")[0].actor == ROLE_USERS["editor"]
+
+
+def test_an_import_moves_the_version_on_so_a_form_opened_before_it_is_refused(client, database, tmp_path):
+    from app.exchange.workbook import import_workbook
+    from tests.workbooks import write_workbook
+
+    version = re.search(r'name="version" value="(\d+)"', client.get("/persons/P1/edit").text).group(1)
+    with database.read() as session:
+        person_before = session.scalar(select(Person.version).where(Person.key == "P1"))
+    folder = write_workbook(tmp_path / "wb", {"persons.csv": [
+        {"key": "P1", "name": "Person 1", "note": "corrected from the register"}]})
+    report = import_workbook(database, folder, size_limit=10**8, actor="edmund")
+    assert report.changed_anything
+    with database.read() as session:
+        person_after = session.scalar(select(Person.version).where(Person.key == "P1"))
+    assert person_after > person_before
+    # the same file again changes nothing, and moves no version on
+    assert not import_workbook(database, folder, size_limit=10**8, actor="edmund").changed_anything
+    with database.read() as session:
+        assert session.scalar(select(Person.version).where(Person.key == "P1")) == person_after
+    # the editor who opened the form before the import saves: refused, with the record as it is now
+    answer = post(client, "/persons/P1/edit", version=version, name="Person 1", note="my own note")
+    assert answer.status_code == 409
+    assert "an import by edmund" in answer.text and "Nothing was saved" in answer.text
+    assert re.search(r'<tr data-field="note"><th scope="row">\w+</th><td class="was">[^<]*</td>'
+                     r'<td class="now">corrected from the register</td>', answer.text)
+    assert client.get("/api/persons/P1").json()["person"]["note"] == "corrected from the register"
+    # a form opened after the import saves
+    fresh = re.search(r'name="version" value="(\d+)"', client.get("/persons/P1/edit").text).group(1)
+    assert post(client, "/persons/P1/edit", version=fresh, name="Person 1", note="my own note").status_code == 303
+
+
+def test_an_import_that_adds_a_spelling_moves_the_persons_version_on(client, database, tmp_path):
+    from app.exchange.workbook import import_workbook
+    from tests.workbooks import write_workbook
+
+    with database.read() as session:
+        before = session.scalar(select(Person.version).where(Person.key == "P1"))
+    import_workbook(database, write_workbook(tmp_path / "wb", {"persons.csv": [
+        {"key": "P1", "name": "Person 1", "variants": "Persona Una"}]}), size_limit=10**8, actor="edmund")
+    with database.read() as session:
+        assert session.scalar(select(Person.version).where(Person.key == "P1")) > before
+
+
+# --- groups ------------------------------------------------------------------------------------
+
+
+def test_a_group_is_created_and_edited_with_its_version_and_audit(client, database):
+    answer = post(client, "/new/group", key="g-guild", name="Guild of Printers", kind="guild", start="1702")
+    assert answer.status_code == 303 and answer.headers["location"] == "/groups/g-guild"
+    assert post(client, "/new/group", key="g-lodge", name="Lodge", parent="g-guild", end="1740").status_code == 303
+    group = client.get("/api/groups/g-lodge").json()["group"]
+    assert group["name"] == "Lodge" and group["ancestors"][-1]["key"] == "g-guild"
+    version = re.search(r'name="version" value="(\d+)"', client.get("/groups/g-guild/edit").text).group(1)
+    assert post(client, "/groups/g-guild/edit", version=version, name="Guild of Printers and Binders",
+                kind="guild", start="1702").status_code == 303
+    assert client.get("/api/groups/g-guild").json()["group"]["name"] == "Guild of Printers and Binders"
+    [created, edited] = audit_of(database, "group", "g-guild")
+    assert created.action == "create" and edited.action == "update"
+    assert json.loads(edited.before_json)["name"] == "Guild of Printers"
+    assert json.loads(edited.after_json)["name"] == "Guild of Printers and Binders"
+    # a second editor on the old version is refused, with what changed
+    answer = post(client, "/groups/g-guild/edit", version=version, name="Printers' Guild")
+    assert answer.status_code == 409 and 'data-field="name"' in answer.text and "Nothing was saved" in answer.text
+    assert client.get("/api/groups/g-guild").json()["group"]["name"] == "Guild of Printers and Binders"
+
+
+def test_a_refused_group_form_names_each_field_and_writes_nothing(client, database):
+    post(client, "/new/group", key="g-guild", name="Guild")
+    before = counts(database)
+    answer = post(client, "/new/group", key="g-guild", name="", place="nowhere", parent="g-none", start="17th century")
+    assert answer.status_code == 422
+    for name in ("key", "name", "place", "parent", "start"):
+        assert field_error(answer.text, name), name
+    assert counts(database) == before
+    version = re.search(r'name="version" value="(\d+)"', client.get("/groups/g-guild/edit").text).group(1)
+    post(client, "/new/group", key="g-inner", name="Inner", parent="g-guild")
+    before = counts(database)
+    answer = post(client, "/groups/g-guild/edit", version=version, name="Guild", parent="g-inner")
+    assert answer.status_code == 422 and "inside it" in field_error(answer.text, "parent")
+    assert counts(database) == before

@@ -131,6 +131,21 @@ def test_a_search_never_finds_a_restricted_person_by_any_spelling(world):
     assert all(r["born"] in ("", None) and r["died"] in ("", None) for r in rows[-2:])
 
 
+@pytest.mark.parametrize("order", ["asc", "desc"])
+def test_a_rank_table_sorted_by_name_puts_restricted_persons_last_whatever_their_names(world, order):
+    database, reader, editor = world
+    query = f"/api/network/centrality?measure=degree&sort=name&order={order}"
+    mine = reader.get(query).json()["rows"]
+    theirs = editor.get(query).json()["rows"]
+    # "Zorwald" and "Ysolde" sort last ascending and first descending: the reader's rows must not follow them
+    assert [r["name"] for r in mine[-2:]] == ["restricted person"] * 2
+    assert [r["key"] for r in mine[:-2]] == [r["key"] for r in theirs if r["key"] not in ("p-zorwald", "p-ysolde")]
+    # among themselves they keep rank order, which the reader sees anyway
+    assert [r["rank"] for r in mine[-2:]] == sorted(r["rank"] for r in mine[-2:])
+    page = reader.get(f"/network/centrality?measure=degree&sort=name&order={order}").text
+    assert leaks(page) == []
+
+
 def test_stored_results_are_keyed_by_the_viewers_visibility(world):
     database, reader, editor = world
     reader.get("/api/network/centrality?measure=closeness")

@@ -21,6 +21,7 @@ from app.models import Attestation, Person, PersonIdentifier, RelationKind, Sour
 from app.network.measures import MEASURES
 from app.network.slice import Slice, build_graph
 from app.store.measure_results import list_stored_results
+from app.store.privacy import RestrictedPersons
 from app.store.summary import get_data_version
 
 __all__ = ["NodeRow", "EdgeRow", "SliceExport", "adjacency_csv", "edges_csv", "nodes_csv", "slice_export", "to_graphml"]
@@ -70,11 +71,18 @@ class SliceExport:
     measures: list[str] = field(default_factory=list)
 
 
-def slice_export(session: Session, slice_: Slice) -> SliceExport:
-    """Return the persons and ties of the slice with their attributes, in key order."""
+def slice_export(session: Session, slice_: Slice, *, leave_out: RestrictedPersons | None = None) -> SliceExport:
+    """Return the persons and ties of the slice with their attributes, in key order.
+
+    With ``leave_out`` (the restricted persons), they and their ties are not in the files, and
+    stored measures (computed on the whole slice) are left out too, since their values were
+    shaped by the persons left out.
+    """
     from app.network.results import slice_key  # results imports the measure machinery; keep it lazy
 
     G = build_graph(session, slice_)
+    if leave_out:
+        G.remove_nodes_from([pid for pid in leave_out.ids if pid in G])
     people = {p.id: p for p in session.scalars(select(Person).where(Person.id.in_(list(G)))) } if len(G) < 30000 else {
         p.id: p for p in session.scalars(select(Person))}
     identifiers: dict[int, list[str]] = {}
@@ -93,7 +101,9 @@ def slice_export(session: Session, slice_: Slice) -> SliceExport:
         ).all())
     version = get_data_version(session=session)
     measures: dict[str, dict[str, float | None]] = {}
-    for stored in list_stored_results(session=session, slice_key=slice_key(slice_), visibility=VISIBILITY_ALL):
+    stored_results = [] if leave_out else list_stored_results(session=session, slice_key=slice_key(slice_),
+                                                              visibility=VISIBILITY_ALL)
+    for stored in stored_results:
         if stored.measure in MEASURES and stored.data_version == version and stored.measure not in measures:
             measures[stored.measure] = {row["key"]: row["value"] for row in stored.payload.get("rows", [])}
     key = {pid: people[pid].key for pid in G}

@@ -26,6 +26,7 @@ from app.exchange.workbook import FILES, export_workbook
 from app.models import Attestation, Person, Relation, Source
 from app.network.slice import Slice
 from app.store.measure_results import list_stored_results
+from app.store.privacy import RestrictedPersons
 from app.store.summary import get_data_version
 
 __all__ = ["DatasetVersion", "dataset_version", "snapshot_bytes"]
@@ -47,9 +48,9 @@ class DatasetVersion:
     """The database's own counter of writes (not part of the hash)."""
 
 
-def _workbook_files(session: Session) -> dict[str, bytes]:
+def _workbook_files(session: Session, *, leave_out: RestrictedPersons | None = None) -> dict[str, bytes]:
     with tempfile.TemporaryDirectory(prefix="attesta-snapshot-") as folder:
-        export_workbook(session, folder)
+        export_workbook(session, folder, leave_out=leave_out)
         return {name: (Path(folder) / name).read_bytes() for name in FILES if (Path(folder) / name).exists()}
 
 
@@ -75,14 +76,19 @@ def dataset_version(session: Session, files: dict[str, bytes] | None = None) -> 
     )
 
 
-def snapshot_bytes(session: Session, slice_: Slice, *, dataset_name: str) -> tuple[bytes, DatasetVersion]:
-    """Return the snapshot .zip and the dataset version it holds."""
+def snapshot_bytes(session: Session, slice_: Slice, *, dataset_name: str,
+                   leave_out: RestrictedPersons | None = None) -> tuple[bytes, DatasetVersion]:
+    """Return the snapshot .zip and the dataset version it holds.
+
+    With ``leave_out`` (the restricted persons) the workbook leaves them out, the stored measures
+    (computed with them) are not included, and the hash is that of the files in the snapshot.
+    """
     from app.network.results import slice_key
 
-    files = _workbook_files(session)
+    files = _workbook_files(session, leave_out=leave_out)
     cited = dataset_version(session, files)
     query = slice_key(slice_)
-    stored = [r for r in list_stored_results(session=session, slice_key=query, visibility="all")]
+    stored = [] if leave_out else list_stored_results(session=session, slice_key=query, visibility="all")
     buffer = io.BytesIO()
     with zipfile.ZipFile(buffer, "w", zipfile.ZIP_DEFLATED) as archive:
         def add(name: str, data: bytes | str) -> None:
@@ -104,24 +110,28 @@ def snapshot_bytes(session: Session, slice_: Slice, *, dataset_name: str) -> tup
                 writer.writerows(result.payload["rows"])
                 add(f"measures/{label}.csv", out.getvalue())
         add("SHA256", f"{cited.sha256}  (SHA-256 of the canonical workbook; see README.txt)\n")
-        add("README.txt", _readme(dataset_name, cited, slice_, query, stored))
+        add("README.txt", _readme(dataset_name, cited, slice_, query, stored, left_out=len(leave_out.ids) if leave_out else 0))
     return buffer.getvalue(), cited
 
 
-def _readme(dataset_name: str, cited: DatasetVersion, slice_: Slice, query: str, stored: list) -> str:
+def _readme(dataset_name: str, cited: DatasetVersion, slice_: Slice, query: str, stored: list, *, left_out: int = 0) -> str:
     try:
         software = version("attesta")
     except PackageNotFoundError:  # pragma: no cover - run from a source tree that is not installed
         software = "unknown"
     measures = "\n".join(f"  - {r.measure} {r.options} (data version {r.data_version}"
                          f"{'' if r.data_version == cited.data_version else ', older than the data'})" for r in stored)
+    privacy = "" if not left_out else (
+        f"\nLeft out: {left_out} restricted persons (recorded as living, or born too recently), with every relation,\n"
+        "membership and fact naming them; their names elsewhere read \"restricted person\". The hash and the\n"
+        "workbook are those of this reduced dataset; the stored measures are not included.\n")
     return f"""{dataset_name}: a snapshot made by Attesta {software}
 
 Made on: {datetime.now(UTC).strftime('%Y-%m-%d %H:%M')} UTC
 Dataset version (cite this): {cited.sha256}
 Counts: {cited.persons} persons, {cited.sources} sources, {cited.relations} relations, {cited.attestations} attestations
 Database write counter: {cited.data_version}
-
+{privacy}
 Slice: {slice_.describe()}
 Slice query string: {query or '(the default slice)'}
 

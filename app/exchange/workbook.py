@@ -52,6 +52,7 @@ from app.models import (
     Source,
 )
 from app.names import fold
+from app.store.privacy import RestrictedPersons
 
 MAX_PROBLEMS = 200
 Progress = Callable[[int, int], None]  # called with (rows done, rows in all) while an import runs
@@ -814,7 +815,7 @@ class _Importer:
         current = self.session.execute(select(*[table.c[c] for c in values]).where(table.c.id == ref.id)).one()
         changes = {c: v for (c, v), old in zip(values.items(), current) if old != v}
         if changes:
-            self.session.execute(table.update().where(table.c.id == ref.id).values(**changes))
+            self.session.execute(table.update().where(table.c.id == ref.id).values(**changes, **_bumped(table)))
             self.count(row, "changed")
         else:
             self.count(row, "unchanged")
@@ -927,6 +928,9 @@ class _Importer:
                 self.problem(row, "identifiers", f"{scheme}:{value} already belongs to another person")
         if added:
             self.count_as_changed(row)
+            table = Person.__table__
+            if not self.pending.is_new(table, person_id):  # a new spelling or identifier is an edit of the person
+                self.session.execute(table.update().where(table.c.id == person_id).values(**_bumped(table)))
 
     def _identifiers(self, row: Row) -> list[tuple[str, str]]:
         found = []
@@ -1032,7 +1036,7 @@ class _Importer:
             if self.pending.is_new(table, record_id) and value is None:
                 continue  # a new record refers to nothing: already so
             if self.session.execute(select(table.c[column]).where(table.c.id == record_id)).scalar_one() != value:
-                self.session.execute(table.update().where(table.c.id == record_id).values({column: value}))
+                self.session.execute(table.update().where(table.c.id == record_id).values({column: value, **_bumped(table)}))
                 self.count_as_changed(row)
         if file == "sources.csv" and self.writing:
             self._check_copies_name_originals()
@@ -1092,7 +1096,7 @@ class _Importer:
             current = self.session.execute(select(*[table.c[c] for c in columns]).where(table.c.id == att_id)).one()
             changes = {c: fields[c] for c, old in zip(columns, current) if old != fields[c]}
             if changes:
-                self.session.execute(table.update().where(table.c.id == att_id).values(**changes))
+                self.session.execute(table.update().where(table.c.id == att_id).values(**changes, **_bumped(table)))
                 self.count(row, "changed")
                 # a keyless row later in this import must match the attestation as it is now
                 old = self.signature_of.pop(att_id, None)
@@ -1187,7 +1191,7 @@ class _Importer:
                 self.term_lines.setdefault(membership["id"], row.line)
             if any(membership[c] != v for c, v in given.items()):
                 self.pending.before_reading(table)
-                self.session.execute(table.update().where(table.c.id == membership["id"]).values(**given))
+                self.session.execute(table.update().where(table.c.id == membership["id"]).values(**given, **_bumped(table)))
                 membership.update(given)
                 self._write_attestation(row, "membership_id", membership["id"], {**fields, "name_a_as_written": None, "name_b_as_written": None})
                 self.count_as_changed(row)
@@ -1249,6 +1253,12 @@ class _Importer:
                     update(Attestation).where(Attestation.id == att_id).values(earliest=interval.earliest, latest=interval.latest)
                 )
 
+def _bumped(table: Any) -> dict[str, Any]:
+    """The version bump of a keyed update of a record that forms edit (persons, sources, groups, ...): an editor
+    who opened the form before the import is then refused, not allowed to overwrite it silently."""
+    return {"version": table.c.version + 1} if "version" in table.c else {}
+
+
 def _target_of(att: Any) -> tuple[str, int]:
     if att.relation_id is not None:
         return "relation_id", att.relation_id
@@ -1277,14 +1287,17 @@ def _signature_of_fields(fields: dict[str, Any], target_column: str) -> bytes:
 # --- exporting ---------------------------------------------------------------------------
 
 
-def export_workbook(session: Session, folder: str | Path) -> dict[str, int]:
+def export_workbook(session: Session, folder: str | Path, *, leave_out: RestrictedPersons | None = None) -> dict[str, int]:
     """Write every workbook file of the dataset into ``folder``; return the row count per file.
 
     Soft-deleted attestations are left out: they stay in the database and its audit trail.
+    With ``leave_out`` (the restricted persons, see ``app.store.privacy``), their persons rows and
+    every relation, membership and fact row naming them are left out, and their keys and
+    spellings in the remaining cells become "restricted" / "restricted person".
     """
     folder = Path(folder)
     folder.mkdir(parents=True, exist_ok=True)
-    tables = _export_rows(session)
+    tables = _export_rows(session, leave_out or None)
     for name, rows in tables.items():
         with open(folder / name, "w", encoding="utf-8", newline="") as handle:
             writer = csv.writer(handle, lineterminator="\n")
@@ -1302,7 +1315,19 @@ def _number(value: float | None) -> str | None:
     return None if value is None else repr(value)
 
 
-def _export_rows(s: Session) -> dict[str, list[dict[str, Any]]]:
+def _export_rows(s: Session, leave_out: RestrictedPersons | None = None) -> dict[str, list[dict[str, Any]]]:
+    out = _all_export_rows(s)
+    if leave_out is None:
+        return out
+    hidden = {key.lower() for key in leave_out.keys}
+    naming = {"persons.csv": ("key",), "relations.csv": ("person", "other"), "memberships.csv": ("person",),
+              "facts.csv": ("person",)}
+    return {name: [{column: (leave_out.hide_in(value) if isinstance(value, str) else value) for column, value in row.items()}
+                   for row in rows if not any((row.get(c) or "").lower() in hidden for c in naming.get(name, ()))]
+            for name, rows in out.items()}
+
+
+def _all_export_rows(s: Session) -> dict[str, list[dict[str, Any]]]:
     place = dict(s.execute(select(Place.id, Place.key)).all())
     repository = dict(s.execute(select(Repository.id, Repository.key)).all())
     collection = dict(s.execute(select(Collection.id, Collection.key)).all())

@@ -11,15 +11,19 @@ A process, not a thread: compiled graph kernels can hold the interpreter lock fo
 
 from __future__ import annotations
 
+import fcntl
+import hashlib
 import json
 import multiprocessing
 import os
 import socket
+import tempfile
 import threading
 import time
 import traceback
 from dataclasses import dataclass
 from datetime import UTC, datetime
+from pathlib import Path
 from urllib.parse import parse_qsl
 
 from app.db import Database
@@ -182,6 +186,26 @@ def worker_loop(database_url: str, stop: multiprocessing.synchronize.Event | Non
         database.dispose()
 
 
+def worker_lock_path(url: str) -> Path:
+    """The file whose exclusive lock elects the server process that runs the worker: beside an SQLite
+    file, else in the temporary folder under a hash of the URL (server processes share one machine)."""
+    if url.startswith("sqlite:///"):
+        path = Path(url.removeprefix("sqlite:///"))
+        return path.with_name(path.name + ".worker")
+    return Path(tempfile.gettempdir()) / f"attesta-{hashlib.sha256(url.encode()).hexdigest()[:16]}.worker"
+
+
+def _take_worker_lock(url: str) -> object | None:
+    """Return the open, exclusively locked worker lock file, or None when another process holds it."""
+    handle = open(worker_lock_path(url), "a+")  # noqa: SIM115 - kept open while the lock is held
+    try:
+        fcntl.flock(handle, fcntl.LOCK_EX | fcntl.LOCK_NB)
+    except OSError:
+        handle.close()
+        return None
+    return handle
+
+
 class Worker:
     """The one background worker process of a server, started when the first job is queued.
 
@@ -189,17 +213,30 @@ class Worker:
     its lifespan queues jobs and leaves them for the next server that runs.
     """
 
-    def __init__(self, database: Database):
+    def __init__(self, database: Database, *, shared: bool = False):
         self.database = database
+        self.shared = shared  # True: one of several server processes on this database (``attesta serve --workers``)
         self._context = multiprocessing.get_context("spawn")  # a fresh interpreter: no inherited connections
         self._stop = self._context.Event()
         self._process: multiprocessing.process.BaseProcess | None = None
         self._running = False  # between start() and stop(), the server's lifespan
         self._start_lock = threading.Lock()
+        self._elected: object | None = None  # the open lock file, for the server process that runs the worker
+        self._watch_stop = threading.Event()
 
     def start(self) -> None:
         """Requeue jobs whose worker is gone (not those another live server's worker runs), and start
-        the process if any job waits."""
+        the process if any job waits.
+
+        Among several server processes (``shared``) only the one holding the lock on
+        ``worker_lock_path`` runs the worker; it also watches the queue, since jobs queued by the
+        other processes do not wake it.
+        """
+        if self.shared:
+            self._elected = _take_worker_lock(self.database.url)
+            if self._elected is None:
+                return  # another server process of this database runs the worker
+            threading.Thread(target=self._watch, name="attesta-job-watch", daemon=True).start()
         self._running = True
         with self.database.write() as session:
             requeue_running_jobs(session=session)
@@ -234,9 +271,30 @@ class Worker:
                                               name="attesta-measures", daemon=True)
         self._process.start()
 
+    def _watch(self) -> None:
+        """Start the worker process when a job waits (jobs queued by other server processes)."""
+        from sqlalchemy import select
+
+        from app.models import Job
+
+        while not self._watch_stop.wait(POLL_SECONDS):
+            if self._process is not None and self._process.is_alive():
+                continue
+            try:
+                with self.database.read() as session:
+                    waiting = session.scalars(select(Job.id).where(Job.state == "queued").limit(1)).first()
+            except Exception:  # noqa: BLE001 - a busy or closing database: look again next time
+                continue
+            if waiting is not None:
+                self.ensure_running()
+
     def stop(self, timeout: float = 5.0) -> None:
         """Ask the process to stop after its current job; end it if it does not within ``timeout``."""
+        self._watch_stop.set()
         self._running = False
+        if self._elected is not None:
+            self._elected.close()  # releases the lock for a server process started later
+            self._elected = None
         if self._process is None:
             return
         self._stop.set()

@@ -8,15 +8,21 @@ in ``app.auth``; this module only finds them.
 
 from __future__ import annotations
 
+import re
 from dataclasses import dataclass
 from datetime import date
+from functools import cached_property
 
 from sqlalchemy import and_, or_, select
 from sqlalchemy.orm import Session
 
 from app.models import Person, PersonAlias, PersonName
 
-__all__ = ["RestrictedPersons", "list_restricted_persons"]
+__all__ = ["RESTRICTED_KEY", "RESTRICTED_NAME", "RestrictedPersons", "list_restricted_persons"]
+
+RESTRICTED_KEY = "restricted"
+RESTRICTED_NAME = "restricted person"
+KEY_CHARACTERS = r"[\w.:-]"
 
 
 @dataclass(frozen=True)
@@ -30,6 +36,28 @@ class RestrictedPersons:
 
     def __bool__(self) -> bool:
         return bool(self.ids)
+
+    @cached_property
+    def _pattern(self) -> re.Pattern | None:
+        keys = "|".join(re.escape(key) for key in sorted(self.keys, key=len, reverse=True))
+        names = "|".join(re.escape(name) for name in self.names)
+        parts = ([rf"(?<!{KEY_CHARACTERS})(?:{keys})(?!{KEY_CHARACTERS})"] if keys else []) + (
+            [rf"(?<!\w)(?:{names})(?!\w)"] if names else [])
+        return re.compile("|".join(parts), re.I) if parts else None
+
+    @cached_property
+    def _lower_keys(self) -> frozenset[str]:
+        return frozenset(key.lower() for key in self.keys)
+
+    def hide_in(self, value: str) -> str:
+        """Return ``value`` with each key of a restricted person replaced by "restricted" and each spelling of their
+        names by "restricted person" (whole words, any case)."""
+        if value in self.keys:
+            return RESTRICTED_KEY
+        if self._pattern is None:
+            return value
+        return self._pattern.sub(
+            lambda m: RESTRICTED_KEY if m.group(0).lower() in self._lower_keys else RESTRICTED_NAME, value)
 
 
 def list_restricted_persons(*, session: Session, living_years: int, today: date | None = None) -> RestrictedPersons:

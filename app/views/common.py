@@ -184,11 +184,14 @@ class Urls:
     # -- editing and the audit trail --
 
     def new(self, what: str, **query: str | None) -> str:
-        """The form for a new ``person``, ``source``, ``relation`` or ``membership`` (query fills fields)."""
+        """The form for a new ``person``, ``source``, ``group``, ``relation`` or ``membership`` (query fills fields)."""
         return self._path(f"/new/{_seg(what)}", **query)
 
     def edit_person(self, key: str) -> str:
         return self._path(f"/persons/{_seg(key)}/edit")
+
+    def edit_group(self, key: str) -> str:
+        return self._path(f"/groups/{_seg(key)}/edit")
 
     def edit_source(self, key: str) -> str:
         return self._path(f"/sources/{_seg(key)}/edit")

@@ -313,6 +313,77 @@ async def update_person(request: Request, key: str, _: CsrfChecked, actor: Edito
         lambda v, p: _edit_person_page(key, v, p, urls), values, lambda _: urls.person(key))
 
 
+# --- groups ----------------------------------------------------------------------------------
+
+_GROUP_FORM = ("A form for a group (institution, society, household, parish, company, event): key (new groups only), "
+               "name, kind, place (key), parent group (key), start and end in EDTF and a note.")
+
+
+def group_fields(values: dict[str, Any], problems: dict[str, str], *, new: bool) -> list[Fieldset]:
+    """The fields of the group form."""
+    fields = [
+        _f(values, problems, "key", "key", required=True, hint="letters, digits and ._:- ; it never changes")
+        if new else _f(values, problems, "version", "version", "hidden"),
+        _f(values, problems, "name", "name", required=True),
+        _f(values, problems, "kind", "kind", hint="e.g. society, household, parish, company"),
+        _f(values, problems, "place", "place", hint="key of a recorded place"),
+        _f(values, problems, "parent", "part of", hint="key of the group it belongs to"),
+        _f(values, problems, "start", "start", hint=_DATE_HINT),
+        _f(values, problems, "end", "end", hint=_DATE_HINT),
+        _f(values, problems, "note", "note", "textarea"),
+    ]
+    return [Fieldset(None, fields)]
+
+
+def _new_group_page(values: dict, problems: dict[str, str], urls) -> FormPage:  # noqa: ANN001
+    return FormPage("New group", urls.new("group"), "Create the group", group_fields(values, problems, new=True),
+                    cancel=urls.groups())
+
+
+def _edit_group_page(key: str, values: dict, problems: dict[str, str], urls) -> FormPage:  # noqa: ANN001
+    return FormPage(f"Edit {key}", urls.edit_group(key), "Save", group_fields(values, problems, new=False),
+                    cancel=urls.group(key))
+
+
+def _group_form_values(request: Request, session: SessionDep, key: str) -> dict:
+    values = editing.get_group_values(session=session, key=key)
+    if values is None:
+        raise HTTPException(404, f"no group with key '{key}'")
+    return values
+
+
+_pair("/new/group", "New group form", _GROUP_FORM, lambda request, session: _new_group_page({}, {}, urls_for(request)))
+_pair("/groups/{key}/edit", "Edit a group", _GROUP_FORM + " It carries the group's `version` (see the person form).",
+      lambda request, session, key: _edit_group_page(key, _group_form_values(request, session, key), {}, urls_for(request)))
+
+
+def _group_arguments(values: dict) -> dict:
+    return {n: str(values.get(n) or "") for n in ("name", "kind", "place", "parent", "start", "end", "note")}
+
+
+@router.post("/new/group", response_class=RedirectResponse, summary="Create a group",
+             description="Saves the new group form (" + _GROUP_FORM + ") and answers 303 to the group's page; refusals "
+             "as for a person (422).")  # fmt: skip
+async def create_group(request: Request, _: CsrfChecked, actor: EditorActor) -> Response:
+    values = await form_values(request)
+    urls = urls_for(request)
+    return await submit(
+        request,
+        lambda s: editing.create_group(session=s, actor=actor, key=str(values.get("key") or ""), **_group_arguments(values)),
+        lambda v, p: _new_group_page(v, p, urls), values, urls.group)
+
+
+@router.post("/groups/{key}/edit", response_class=RedirectResponse, summary="Save a group",
+             description="Saves the group form and answers 303 to the group's page; refusals as for a person (422, 409).")
+async def update_group(request: Request, key: str, _: CsrfChecked, actor: EditorActor) -> Response:
+    values = await form_values(request)
+    urls = urls_for(request)
+    return await submit(
+        request,
+        lambda s: editing.update_group(session=s, actor=actor, key=key, version=values.get("version"), **_group_arguments(values)),
+        lambda v, p: _edit_group_page(key, v, p, urls), values, lambda _: urls.group(key))
+
+
 # --- sources ---------------------------------------------------------------------------------
 
 _SOURCE_FORM = ("A form for a document: key (new sources only), its repository and collection picked from those "

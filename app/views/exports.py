@@ -3,6 +3,10 @@
 ``/export`` shows the dataset version (content hash and counts) and links every file of the
 slice; each file route takes the slice from its query string. A snapshot is made by a POST
 (with CSRF token) and answered with the .zip.
+
+Every file leaves out the restricted persons (recorded as living, or born too recently) and
+whatever names them, for every role, unless an admin asks for them with ``restricted=include``
+(the choice on the export page); anyone else asking so is refused with 403.
 """
 
 from __future__ import annotations
@@ -11,17 +15,21 @@ import json
 import textwrap
 from dataclasses import dataclass
 
-from fastapi import APIRouter, Depends, Query, Request
+from typing import Annotated
+
+from fastapi import APIRouter, Depends, HTTPException, Query, Request
 from fastapi.responses import HTMLResponse, Response
 from sqlalchemy.orm import Session
 
-from app.auth import CsrfChecked, CurrentActor
+from app.auth import CsrfChecked, CurrentActor, current_actor
 from app.exchange.csl import csl_items
 from app.exchange.network_export import adjacency_csv, edges_csv, nodes_csv, slice_export, to_graphml
 from app.exchange.snapshot import DatasetVersion, dataset_version, snapshot_bytes
 from app.network.slice import Slice
 from app.views.common import BadParameter, SessionDep, SliceDep, render, templates, urls_for
+from app.store.privacy import RestrictedPersons
 from app.views.ego import _radius, ego_panel
+from app.views.redaction import Redactor, restricted_persons
 
 __all__ = ["router"]
 
@@ -35,6 +43,27 @@ def relations_only(slice_: SliceDep) -> None:
 
 
 router = APIRouter(tags=["exports"], dependencies=[Depends(relations_only)])
+
+RESTRICTED_CHOICES = ("leave-out", "include")
+INCLUDE_REFUSED = ("Only an admin may export restricted persons (recorded as living, or born too recently); "
+                   "leave out restricted=include to get the files without them.")
+
+
+def left_out(request: Request, restricted: str = Query(
+        "leave-out", description="`leave-out` (the default): the files leave out restricted persons (recorded as living, "
+                                 "or born too recently) and every relation, membership and fact naming them; "
+                                 "`include`: an admin asks for them (403 for anyone else).")) -> RestrictedPersons | None:
+    """Return the restricted persons the files leave out (None: an admin asked for everything)."""
+    if restricted not in RESTRICTED_CHOICES:
+        raise BadParameter("restricted", restricted, " or ".join(RESTRICTED_CHOICES))
+    if restricted == "include":
+        if not current_actor(request).can("admin"):
+            raise HTTPException(403, INCLUDE_REFUSED)
+        return None
+    return restricted_persons(request) or None
+
+
+LeftOut = Annotated[RestrictedPersons | None, Depends(left_out)]
 
 
 @dataclass(frozen=True)
@@ -60,18 +89,27 @@ class ExportPage:
     """The downloads of the slice."""
     snapshot_action: str
     """Where the snapshot button posts to (with the slice)."""
+    restricted: str = "leave-out"
+    """Whether the files leave out restricted persons (``leave-out``) or hold them (``include``, admins only)."""
+    restricted_count: int = 0
+    """How many restricted persons the dataset has (a number only)."""
+    may_include: bool = False
+    """True for an admin, who may ask for the restricted persons."""
+    include_action: str = ""
+    """The export page itself, where the admin's choice is made."""
 
 
-def export_links(request: Request, slice_: Slice) -> list[ExportLink]:
+def export_links(request: Request, slice_: Slice, restricted: str = "leave-out") -> list[ExportLink]:
     """Return the downloads of a slice, shared by the export page and the export section of the network pages."""
     urls = urls_for(request)
+    extra = {"restricted": "include"} if restricted == "include" else {}
     return [
-        ExportLink("GraphML", urls.export("graphml", slice_), "persons and ties with their attributes, for network software"),
-        ExportLink("Persons (CSV)", urls.export("nodes.csv", slice_), "one row per person: names, life dates, identifiers, stored measures"),
-        ExportLink("Ties (CSV)", urls.export("edges.csv", slice_), "one row per tie: kinds, weight, attestations, documents, source keys"),
-        ExportLink("Adjacency matrix (CSV)", urls.export("matrix.csv", slice_), "tie weights, row person to column person"),
-        ExportLink("Sources (CSL-JSON)", urls.export("sources.json", slice_), "the documents behind the slice's ties, for a reference manager"),
-        ExportLink("Workbook (zip)", urls.export("workbook.zip"), "the whole dataset as a workbook"),
+        ExportLink("GraphML", urls.export("graphml", slice_, **extra), "persons and ties with their attributes, for network software"),
+        ExportLink("Persons (CSV)", urls.export("nodes.csv", slice_, **extra), "one row per person: names, life dates, identifiers, stored measures"),
+        ExportLink("Ties (CSV)", urls.export("edges.csv", slice_, **extra), "one row per tie: kinds, weight, attestations, documents, source keys"),
+        ExportLink("Adjacency matrix (CSV)", urls.export("matrix.csv", slice_, **extra), "tie weights, row person to column person"),
+        ExportLink("Sources (CSL-JSON)", urls.export("sources.json", slice_, **extra), "the documents behind the slice's ties, for a reference manager"),
+        ExportLink("Workbook (zip)", urls.export("workbook.zip", **extra), "the whole dataset as a workbook"),
     ]
 
 
@@ -89,9 +127,15 @@ def _version(request: Request, session: Session) -> DatasetVersion:
     return cache[current]
 
 
-def export_view(request: Request, session: Session, slice_: Slice) -> ExportPage:
+def export_view(request: Request, session: Session, slice_: Slice, leave_out: RestrictedPersons | None) -> ExportPage:
+    restricted = "include" if request.query_params.get("restricted") == "include" else "leave-out"  # checked by left_out
+    extra = {"restricted": "include"} if restricted == "include" else {}
+    urls = urls_for(request)
     return ExportPage(slice=slice_, slice_summary=slice_.describe(), version=_version(request, session),
-                      files=export_links(request, slice_), snapshot_action=urls_for(request).export("snapshot", slice_))
+                      files=export_links(request, slice_, restricted),
+                      snapshot_action=urls.export("snapshot", slice_, **extra), restricted=restricted,
+                      restricted_count=len(restricted_persons(request).ids),
+                      may_include=current_actor(request).can("admin"), include_action=urls.export("", slice_))
 
 
 _SLICE = " The slice is given by the query string, as on every network page."
@@ -100,14 +144,14 @@ _SLICE = " The slice is given by the query string, as on every network page."
 @router.get("/export", response_class=HTMLResponse, summary="Exports and the dataset version (page)",
             description="The content hash and counts of the dataset (cite it as 'dataset version <hash>'), the files "
                         "of the slice to download and the snapshot button." + _SLICE)
-def export_page(request: Request, session: SessionDep, slice_: SliceDep) -> Response:
-    return render(request, export_view(request, session, slice_), template="export.html")
+def export_page(request: Request, session: SessionDep, slice_: SliceDep, leave_out: LeftOut) -> Response:
+    return render(request, export_view(request, session, slice_, leave_out), template="export.html")
 
 
 @router.get("/api/export", response_model=ExportPage, summary="Exports and the dataset version (JSON)",
             description="The JSON twin of `/export`: content hash, counts and the download links." + _SLICE)
-def export_api(request: Request, session: SessionDep, slice_: SliceDep) -> Response:
-    return render(request, export_view(request, session, slice_), template="export.html")
+def export_api(request: Request, session: SessionDep, slice_: SliceDep, leave_out: LeftOut) -> Response:
+    return render(request, export_view(request, session, slice_, leave_out), template="export.html")
 
 
 def _download(data: bytes | str, media_type: str, filename: str) -> Response:
@@ -118,41 +162,41 @@ def _download(data: bytes | str, media_type: str, filename: str) -> Response:
             description="Persons (id = key; name, kind, life dates, identifiers, stored centralities) and ties (kind, "
                         "weight, attestations, documents, source keys) as GraphML." + _SLICE,
             responses={200: {"content": {"application/graphml+xml": {}}}})
-def export_graphml(session: SessionDep, slice_: SliceDep) -> Response:
-    return _download(to_graphml(slice_export(session, slice_)), "application/graphml+xml", "slice.graphml")
+def export_graphml(session: SessionDep, slice_: SliceDep, leave_out: LeftOut) -> Response:
+    return _download(to_graphml(slice_export(session, slice_, leave_out=leave_out)), "application/graphml+xml", "slice.graphml")
 
 
 @router.get("/export/nodes.csv", response_class=Response, summary="The slice's persons as CSV",
             description="One row per person of the slice with its attributes and stored centralities." + _SLICE)
-def export_nodes(session: SessionDep, slice_: SliceDep) -> Response:
-    return _download(nodes_csv(slice_export(session, slice_)), "text/csv; charset=utf-8", "slice-persons.csv")
+def export_nodes(session: SessionDep, slice_: SliceDep, leave_out: LeftOut) -> Response:
+    return _download(nodes_csv(slice_export(session, slice_, leave_out=leave_out)), "text/csv; charset=utf-8", "slice-persons.csv")
 
 
 @router.get("/export/edges.csv", response_class=Response, summary="The slice's ties as CSV",
             description="One row per tie of the slice: kinds, weight, attestations, documents and source keys." + _SLICE)
-def export_edges(session: SessionDep, slice_: SliceDep) -> Response:
-    return _download(edges_csv(slice_export(session, slice_)), "text/csv; charset=utf-8", "slice-ties.csv")
+def export_edges(session: SessionDep, slice_: SliceDep, leave_out: LeftOut) -> Response:
+    return _download(edges_csv(slice_export(session, slice_, leave_out=leave_out)), "text/csv; charset=utf-8", "slice-ties.csv")
 
 
 @router.get("/export/matrix.csv", response_class=Response, summary="The slice's adjacency matrix as CSV",
             description="Tie weights from the row person to the column person, persons in key order." + _SLICE)
-def export_matrix(session: SessionDep, slice_: SliceDep) -> Response:
-    return _download(adjacency_csv(slice_export(session, slice_)), "text/csv; charset=utf-8", "slice-matrix.csv")
+def export_matrix(session: SessionDep, slice_: SliceDep, leave_out: LeftOut) -> Response:
+    return _download(adjacency_csv(slice_export(session, slice_, leave_out=leave_out)), "text/csv; charset=utf-8", "slice-matrix.csv")
 
 
 @router.get("/export/sources.json", response_class=Response, summary="The slice's sources as CSL-JSON",
             description="The documents that attest the slice's ties as CSL-JSON items: archival ones as `manuscript` "
                         "with archive, archive_location and call-number, printed ones as `book` with author, title, "
                         "publisher and issued." + _SLICE)
-def export_sources(session: SessionDep, slice_: SliceDep) -> Response:
-    keys = {k for e in slice_export(session, slice_).edges for k in e.source_keys}
+def export_sources(session: SessionDep, slice_: SliceDep, leave_out: LeftOut) -> Response:
+    keys = {k for e in slice_export(session, slice_, leave_out=leave_out).edges for k in e.source_keys}
     return _download(json.dumps(csl_items(session, keys=keys), indent=2, ensure_ascii=False),
                      "application/vnd.citationstyles.csl+json", "slice-sources.json")
 
 
 @router.get("/export/workbook.zip", response_class=Response, summary="The whole dataset as a workbook (.zip)",
             description="Every workbook file with keys filled in, as `attesta export` writes them; `attesta import` reads it back.")
-def export_workbook_zip(session: SessionDep) -> Response:
+def export_workbook_zip(session: SessionDep, leave_out: LeftOut) -> Response:
     import io
     import zipfile
 
@@ -160,7 +204,7 @@ def export_workbook_zip(session: SessionDep) -> Response:
 
     buffer = io.BytesIO()
     with zipfile.ZipFile(buffer, "w", zipfile.ZIP_DEFLATED) as archive:
-        for name, data in _workbook_files(session).items():
+        for name, data in _workbook_files(session, leave_out=leave_out).items():
             archive.writestr(f"workbook/{name}", data)
     return _download(buffer.getvalue(), "application/zip", "workbook.zip")
 
@@ -172,26 +216,39 @@ _RADIUS = Query("1", description="1 or 2, as on the ego page.")
 @router.get("/export/ego.svg", response_class=Response, summary="An ego drawing as SVG",
             description="The ego drawing of `person` with its legend and a caption naming the slice and the data version." + _SLICE,
             responses={200: {"content": {"image/svg+xml": {}}}})
-def export_ego_svg(request: Request, session: SessionDep, slice_: SliceDep, person: str = _KEY, radius: str = _RADIUS) -> Response:
-    svg, name = ego_svg_text(request, session, slice_, person, radius)
+def export_ego_svg(request: Request, session: SessionDep, slice_: SliceDep, leave_out: LeftOut, person: str = _KEY,
+                   radius: str = _RADIUS) -> Response:
+    svg, name = ego_svg_text(request, session, slice_, person, radius, leave_out)
     return _download(svg, "image/svg+xml", f"{name}.svg")
 
 
 @router.get("/export/ego.png", response_class=Response, summary="An ego drawing as PNG",
             description="The same drawing as `/export/ego.svg`, rendered to PNG at twice its size (cairosvg)." + _SLICE,
             responses={200: {"content": {"image/png": {}}}})
-def export_ego_png(request: Request, session: SessionDep, slice_: SliceDep, person: str = _KEY, radius: str = _RADIUS) -> Response:
+def export_ego_png(request: Request, session: SessionDep, slice_: SliceDep, leave_out: LeftOut, person: str = _KEY,
+                   radius: str = _RADIUS) -> Response:
     import cairosvg
 
-    svg, name = ego_svg_text(request, session, slice_, person, radius)
+    svg, name = ego_svg_text(request, session, slice_, person, radius, leave_out)
     # cairosvg ignores paint-order, so the labels' white halo would be painted over their letters.
     svg = svg.replace("</style>", ".ego-svg .ego-label { stroke: none; }</style>", 1)
     return _download(cairosvg.svg2png(bytestring=svg.encode("utf-8"), scale=2, unsafe=False), "image/png", f"{name}.png")
 
 
-def ego_svg_text(request: Request, session: Session, slice_: Slice, person: str, radius: str) -> tuple[str, str]:
-    """Return the standalone SVG of an ego drawing, with its caption, and a file name for it."""
+def ego_svg_text(request: Request, session: Session, slice_: Slice, person: str, radius: str,
+                 leave_out: RestrictedPersons | None = None) -> tuple[str, str]:
+    """Return the standalone SVG of an ego drawing, with its caption, and a file name for it.
+
+    With ``leave_out``, restricted persons in the drawing read "restricted person" (as readers see
+    them on the pages), and a drawing centred on one is refused with 403.
+    """
     view = ego_panel(session=session, person_key=person, slice=slice_, radius=_radius(radius))
+    if leave_out is not None:
+        redactor = Redactor(leave_out)
+        if redactor.is_about_restricted(view):
+            raise HTTPException(403, "This is a restricted person: their ego drawing is exported only when an admin "
+                                     "asks for restricted persons (restricted=include).")
+        view = redactor.redact(view)
     caption = (f"Ego network of {view.name} ({view.key}), radius {view.radius}. Slice: {view.summary}. "
                f"Attesta, data version {view.data_version}.")
     svg = templates.get_template("ego_download.svg").render(page=view, urls=urls_for(request),
@@ -204,8 +261,10 @@ def ego_svg_text(request: Request, session: Session, slice_: Slice, person: str,
                          "the slice, a README (dataset name, date, counts, software version) and the content hash. "
                          "Needs the form's CSRF token." + _SLICE,
              responses={200: {"content": {"application/zip": {}}}})
-def export_snapshot(request: Request, _: CsrfChecked, actor: CurrentActor, session: SessionDep, slice_: SliceDep) -> Response:
-    data, cited = snapshot_bytes(session, slice_, dataset_name=request.app.state.settings.dataset_name)
+def export_snapshot(request: Request, _: CsrfChecked, actor: CurrentActor, session: SessionDep, slice_: SliceDep,
+                    leave_out: LeftOut) -> Response:
+    data, cited = snapshot_bytes(session, slice_, dataset_name=request.app.state.settings.dataset_name,
+                                 leave_out=leave_out)
     response = _download(data, "application/zip", f"snapshot-{cited.sha256[:12]}.zip")
     response.headers["X-Dataset-Version"] = cited.sha256
     return response

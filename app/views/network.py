@@ -68,7 +68,7 @@ from app.views.network_models import (
     SummaryPage,
 )
 from app.views.slicing import slice_controls
-from app.views.redaction import redact_for
+from app.views.redaction import redact_for, restricted_for
 from app.views.tables import Table, csv_response
 
 __all__ = [
@@ -188,9 +188,12 @@ def centrality_view(
     *, session: Session, database: Database, slice: Slice, measure: str | None = None, sort: str | None = None,  # noqa: A002
     order: str | None = None, page: str | None = None, exact: str | None = None, recompute: bool = False,
     all_rows: bool = False, worker: Worker | None = None, requested_by: str = "anonymous",
-    inline_up_to: int = INLINE_UP_TO,
+    inline_up_to: int = INLINE_UP_TO, hidden_keys: frozenset[str] = frozenset(),
 ) -> CentralityPage:
     """Return the ranked table of one centrality on ``slice`` (``all_rows``: every row, for CSV).
+
+    ``hidden_keys`` are persons the viewer may not see by name: sorted by name, they come last (in
+    rank order), as on the persons list, so their place says nothing of their names.
 
     On a large slice an exact path measure is left to the background worker: the page shows the
     sampled estimate meanwhile (betweenness) or only the job's state (the others).
@@ -229,7 +232,9 @@ def centrality_view(
     names: dict[str, PersonRef] = {}
     if sort == "name":
         names = _people(session, [row["key"] for row in payload_rows])
-        payload_rows = sorted(payload_rows, key=lambda row: (fold(names[row["key"]].name), row["key"]), reverse=order == "desc")
+        named = [row for row in payload_rows if row["key"] not in hidden_keys]
+        named.sort(key=lambda row: (fold(names[row["key"]].name), row["key"]), reverse=order == "desc")
+        payload_rows = named + [row for row in payload_rows if row["key"] in hidden_keys]  # rank order, last
     elif sort != "rank" or order != "asc":
         column = "value" if sort in ("rank", "value") else "raw"
         descending = (order == "desc") != (sort == "rank")
@@ -779,8 +784,10 @@ def centrality_page(
     sort: str | None = _SORT, order: str | None = _ORDER, page: str | None = _PAGE, exact: str | None = _EXACT,
     format: str | None = _FORMAT, table: str | None = _TABLE,  # noqa: A002
 ) -> Response:
+    hidden = restricted_for(request)
     view = centrality_view(session=session, database=database, slice=slice, measure=measure, sort=sort, order=order,
-                           page=page, exact=exact, all_rows=bool(format), **_worker_of(request))
+                           page=page, exact=exact, all_rows=bool(format), hidden_keys=hidden.keys if hidden else frozenset(),
+                           **_worker_of(request))
     return _respond(request, view, template="network_centrality.html", partial="_network_centrality.html", fmt=format,
                     table=table, filename=view.measure)
 

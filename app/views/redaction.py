@@ -21,27 +21,23 @@ Editors and admins see everything (``app.auth.visibility_of``).
 from __future__ import annotations
 
 import dataclasses
-import re
 from datetime import date, datetime
 from typing import Any
 
 from fastapi import HTTPException, Request
 
 from app.auth import current_actor, visibility_of
-from app.store.privacy import RestrictedPersons, list_restricted_persons
+from app.store.privacy import RESTRICTED_KEY, RESTRICTED_NAME, RestrictedPersons, list_restricted_persons
 from app.store.summary import get_data_version
 
-__all__ = ["RESTRICTED_KEY", "RESTRICTED_NAME", "Redactor", "redact_for", "restricted_for"]
+__all__ = ["RESTRICTED_KEY", "RESTRICTED_NAME", "Redactor", "redact_for", "restricted_for", "restricted_persons"]
 
-RESTRICTED_KEY = "restricted"
-RESTRICTED_NAME = "restricted person"
 NAME_FIELDS = frozenset({"name", "label", "display_name", "sort_name", "title", "ego_name"})
 EVIDENCE_WORDS = frozenset({
     "quote", "note", "locus", "written", "value", "text", "date", "dates", "term", "start", "end", "role", "born",
     "died", "caption", "variant", "variants", "years", "earliest", "latest", "keys", "identifiers", "facts",
 })  # a field whose name has one of these words (split at "_") says something about the person
 LAYOUT_FIELDS = frozenset({"kind", "shape", "anchor", "colour", "dash", "path"})  # how a mark is drawn, not who
-KEY_CHARACTERS = r"[\w.:-]"
 RESTRICTED_PAGE = ("This is a restricted person (recorded as living, or born too recently): their name, dates, "
                    "facts and evidence are shown to editors only. Elsewhere they appear as \"restricted person\".")
 
@@ -52,25 +48,12 @@ class Redactor:
     def __init__(self, restricted: RestrictedPersons):
         self.restricted = restricted
         self.keys = restricted.keys
-        self._lower_keys = {key.lower() for key in restricted.keys}
-        keys = "|".join(re.escape(key) for key in sorted(restricted.keys, key=len, reverse=True))
-        names = "|".join(re.escape(name) for name in restricted.names)
-        parts = ([rf"(?<!{KEY_CHARACTERS})(?:{keys})(?!{KEY_CHARACTERS})"] if keys else []) + (
-            [rf"(?<!\w)(?:{names})(?!\w)"] if names else [])
-        self._pattern = re.compile("|".join(parts), re.I) if parts else None
 
     # -- text -----------------------------------------------------------------------------------
 
     def text(self, value: str) -> str:
         """Return ``value`` with restricted keys and names replaced."""
-        if value in self.keys:
-            return RESTRICTED_KEY
-        if self._pattern is None:
-            return value
-        return self._pattern.sub(self._replacement, value)
-
-    def _replacement(self, match: re.Match) -> str:
-        return RESTRICTED_KEY if match.group(0).lower() in self._lower_keys else RESTRICTED_NAME
+        return self.restricted.hide_in(value)
 
     # -- structures -----------------------------------------------------------------------------
 
@@ -200,6 +183,11 @@ def restricted_for(request: Request) -> RestrictedPersons | None:
     """Return the persons the request's actor may not see, or None when they may see everyone."""
     if visibility_of(current_actor(request)) == "all":
         return None
+    return restricted_persons(request) or None
+
+
+def restricted_persons(request: Request) -> RestrictedPersons:
+    """Return the restricted persons of the dataset today (kept per data version), whoever asks."""
     state = request.app.state
     settings = state.settings
     today = date.today()
@@ -210,7 +198,7 @@ def restricted_for(request: Request) -> RestrictedPersons | None:
         if cached is None or cached[0] != key:
             cached = (key, list_restricted_persons(session=session, living_years=settings.living_years, today=today))
             state.restricted_persons = cached
-    return cached[1] or None
+    return cached[1]
 
 
 def redact_for(request: Request, view: Any) -> Any:

@@ -5,22 +5,13 @@ boosted by htmx, so this also checks that a refused save (answered 200 to htmx) 
 from __future__ import annotations
 
 import pytest
-from playwright.sync_api import Browser, expect, sync_playwright
+from playwright.sync_api import Browser, expect
 
 from app.config import database_url
-from conftest import ARTIFACTS, chromium_path
+from conftest import ARTIFACTS, open_page
 from helpers import add_tiny_dataset, running_server
-from test_browser_home import CHROMIUM_ARGS, open_page
 
 pytestmark = pytest.mark.browser
-
-
-@pytest.fixture
-def browser():
-    with sync_playwright() as playwright:
-        chromium = playwright.chromium.launch(executable_path=chromium_path(), args=CHROMIUM_ARGS)
-        yield chromium
-        chromium.close()
 
 
 def test_create_a_person_and_a_relation_with_its_evidence(browser: Browser, db_path, database):

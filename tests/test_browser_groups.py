@@ -6,27 +6,18 @@ from pathlib import Path
 from urllib.parse import parse_qs, urlsplit
 
 import pytest
-from playwright.sync_api import Browser, expect, sync_playwright
+from playwright.sync_api import Browser, expect
 
 from app.config import database_url
 from app.db import Database, upgrade
 from app.exchange.workbook import import_workbook
-from conftest import ARTIFACTS, chromium_path
+from conftest import ARTIFACTS, open_page
 from helpers import running_server
-from test_browser_home import CHROMIUM_ARGS, open_page
 from tests.test_groups import world
 from tests.twomode_world import MARKUP_GROUP
 from tests.workbooks import write_workbook
 
 pytestmark = pytest.mark.browser
-
-
-@pytest.fixture(scope="module")
-def browser():
-    with sync_playwright() as playwright:
-        chromium = playwright.chromium.launch(executable_path=chromium_path(), args=CHROMIUM_ARGS)
-        yield chromium
-        chromium.close()
 
 
 @pytest.fixture(scope="module")

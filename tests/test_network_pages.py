@@ -588,3 +588,18 @@ def test_every_measure_page_warns_on_a_small_slice(florentine):
     summary = BeautifulSoup(client.get("/network/summary", params={"direction": "undirected"}).text, "html.parser")
     assert summary.select_one(".small-slice-note") is None
     assert "Only 15 persons and 20 ties" in summary.get_text()
+
+
+def test_centrality_warns_when_one_collection_holds_most_of_the_evidence(client: TestClient):
+    # the evidence world: most attestations come from the Vell family papers; the centrality page
+    # gives the summary's own warning, word for word, and the summary does not give it twice
+    summary = client.get("/api/network/summary").json()
+    [concentrated] = [w for w in summary["warnings"] if "come from one collection" in w]
+    for measure in ("degree", "betweenness", "pagerank"):
+        context = client.get("/api/network/centrality", params={"measure": measure}).json()["context"]
+        assert context["collection_note"] == concentrated, measure
+        page = soup_of(client.get("/network/centrality", params={"measure": measure}))
+        assert page.select_one(".collection-note").get_text(strip=True) == concentrated
+    assert soup_of(client.get("/network/summary")).select_one(".collection-note") is None
+    # the other measure pages do not repeat it
+    assert client.get("/api/network/components").json()["context"]["collection_note"] is None

@@ -35,6 +35,7 @@ from app.network.comembership import PROJECTION_CLIQUE_LIMIT, co_membership_grap
 from app.network.measures.cliques import CLIQUE_LIMIT
 from app.network.measures import MEASURES, cliques, communities, components, compute, cuts, summarize
 from app.network.measures.results import MeasureError
+from app.network.measures.summary import collection_warning
 from app.network.measures.arcs import ArcGraph
 from app.network.same_as import merge_nodes, merge_rows, same_as_mapping
 from app.network.slice import (
@@ -310,6 +311,7 @@ def _compute(session: Session, graph: SliceGraph, *, measure: str, options: dict
         payload = _communities(graph.G, slice_, key_of, options)
     else:
         payload = _centrality(graph.arcs, measure, slice_, key_of, options)
+        payload["collection_note"] = _collection_note(session, graph)
     return _with_mode(payload, slice_)
 
 
@@ -344,12 +346,7 @@ def _centrality(G: nx.Graph, measure: str, slice_: Slice, key_of: dict, options:
 def _summary(session: Session, graph: SliceGraph) -> dict[str, Any]:
     G, slice_ = graph.G, graph.slice
     in_graph = {r for _, _, ids in G.edges(data="relation_ids") for r in ids or ()}
-    per_collection = Counter(collection_counts(session, graph.resolved, in_graph))
-    memberships = G.graph.get("membership_ids", [])  # mode=co-membership or both: their evidence counts too
-    per_collection.update(membership_collection_counts(session, graph.resolved, memberships))
-    printed = per_collection.pop(None, 0)
-    names = list_collection_names(session=session, ids=list(per_collection))
-    counts = {names[c]: count for c, count in per_collection.items()}
+    counts, printed = _collection_shares(session, graph, in_graph)
     summary = summarize(G, node_set=slice_.nodes, collection_counts=counts)
     payload = asdict(summary)
     payload["attestations"] = sum(graph.attestations[r] for r in in_graph) + G.graph.get("membership_attestations", 0)
@@ -360,6 +357,29 @@ def _summary(session: Session, graph: SliceGraph) -> dict[str, Any]:
     payload["printed_attestations"] = printed
     payload["n"] = len(G)
     return _finite(payload)
+
+
+def _collection_shares(session: Session, graph: SliceGraph, relation_ids: set[int]) -> tuple[dict[str, int], int]:
+    """Return the attestations behind the slice's ties per collection (by name) and those from printed sources."""
+    per_collection = Counter(collection_counts(session, graph.resolved, relation_ids))
+    memberships = graph.G.graph.get("membership_ids", []) if graph.slice.mode != "relations" else []
+    per_collection.update(membership_collection_counts(session, graph.resolved, memberships))  # shared groups' evidence
+    printed = per_collection.pop(None, 0)
+    names = list_collection_names(session=session, ids=list(per_collection))
+    return {names[c]: count for c, count in per_collection.items()}, printed
+
+
+def _collection_note(session: Session, graph: SliceGraph) -> str | None:
+    """Return the summary's warning when one collection holds most of the slice's evidence, else None.
+
+    The relations are those the slice keeps (read from the per-relation counts, so the arrays a
+    centrality runs on need no networkx graph); on a co-membership slice, those of its graph.
+    """
+    if graph.slice.mode == "relations":
+        relation_ids = set(graph.attestations)
+    else:
+        relation_ids = {r for _, _, ids in graph.G.edges(data="relation_ids") for r in ids or ()}
+    return collection_warning(_collection_shares(session, graph, relation_ids)[0])
 
 
 def _components(G: nx.Graph, slice_: Slice, key_of: dict) -> dict[str, Any]:

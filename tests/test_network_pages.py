@@ -32,6 +32,7 @@ from app.store.measure_results import count_stored_results
 from app.network.definitions import FAMILIES as PAGE_INFO
 from app.network.definitions import MEASURE_INFO, Definition
 from app.network.measures import MEASURES
+from app.views import charts
 from app.views import network as network_views
 from app.views import network_models
 from tests.evidence_world import XSS_NAME, world, world_file  # noqa: F401 - fixtures
@@ -198,7 +199,7 @@ def test_on_a_large_slice_even_cheap_results_wait_for_a_recompute(florentine, mo
 
 
 def test_the_doctests_of_the_results_and_pages():
-    for module in (network_results, network_views):
+    for module in (network_results, network_views, charts):
         failures, tried = doctest.testmod(module)
         assert tried and not failures, module.__name__
 
@@ -603,3 +604,17 @@ def test_centrality_warns_when_one_collection_holds_most_of_the_evidence(client:
     assert soup_of(client.get("/network/summary")).select_one(".collection-note") is None
     # the other measure pages do not repeat it
     assert client.get("/api/network/components").json()["context"]["collection_note"] is None
+
+
+def test_the_degree_chart_has_whole_number_ticks_and_bars_clear_of_the_axis(client: TestClient):
+    # a handful of persons: pygal's own ticks would be 0, 0.2, 0.4 ... and its axis would run at degree 0
+    svg = BeautifulSoup(client.get("/network/summary/degrees.svg").text, "xml")
+    for axis in ("x", "y"):
+        ticks = [text.get_text() for text in svg.select(f"g.axis.{axis} g.guides text")]
+        assert ticks and all(tick.isdigit() for tick in ticks), (axis, ticks)
+    bars = svg.select("g.serie-0 rect.rect")
+    body = client.get("/api/network/summary").json()
+    assert len(bars) == len(body["degree_distribution"])  # no bar of the margins is left
+    drawn = [p for p in svg.select("g.axis.x path") if "guide" not in p["class"].split()]  # guides are hidden
+    assert drawn
+    assert min(float(bar["x"]) for bar in bars) > max(float(p["d"].split()[0][1:]) for p in drawn) + 10

@@ -618,3 +618,19 @@ def test_the_degree_chart_has_whole_number_ticks_and_bars_clear_of_the_axis(clie
     drawn = [p for p in svg.select("g.axis.x path") if "guide" not in p["class"].split()]  # guides are hidden
     assert drawn
     assert min(float(bar["x"]) for bar in bars) > max(float(p["d"].split()[0][1:]) for p in drawn) + 10
+
+
+def test_the_home_and_the_summary_say_what_each_counts(client: TestClient):
+    # the evidence world holds a person without evidence and a draft: the two pages' figures differ,
+    # and each page says what it counts and points to the other
+    home = soup_of(client.get("/"))
+    summary = soup_of(client.get("/network/summary"))
+    stored = int(home.select_one('[data-count="persons"]')["data-value"])
+    in_slice = client.get("/api/network/summary").json()["persons"]
+    assert stored > in_slice
+    home_note = home.select_one(".counts-note")
+    assert "everything stored" in home_note.get_text() and "drafts" in home_note.get_text()
+    assert home_note.select_one("a")["href"] == "/network/summary"
+    summary_note = summary.select_one(".counts-note")
+    assert "this slice only" in summary_note.get_text() and "everything stored" in summary_note.get_text()
+    assert summary_note.select_one("a")["href"] == "/"

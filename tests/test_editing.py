@@ -8,6 +8,7 @@ import json
 import re
 
 import pytest
+from bs4 import BeautifulSoup
 from fastapi.testclient import TestClient
 from sqlalchemy import func, select
 
@@ -304,6 +305,23 @@ def test_the_audit_page_filters_by_user_record_and_date(client, database):
     assert "/audit?table=source&amp;key=S1" in client.get("/sources/S1").text
     assert "/audit?table=relation&amp;key=1" in client.get("/relations/1").text
     assert "/audit?table=group&amp;key=G1" in client.get("/groups/G1").text
+
+
+def test_the_audit_page_names_the_persons_and_lays_its_filters_out_in_a_row(client):
+    post(client, "/new/person", key="P9", name="Nine")
+    page = BeautifulSoup(client.get("/audit").text, "html.parser")
+    [row] = page.select("tr[data-action=create]")
+    assert row.select_one(".summary").get_text(strip=True) == "created person Nine (P9)"
+    name = row.select_one("a.record-name")
+    assert name.get_text(strip=True) == "Nine" and name["href"] == "/persons/P9"
+    form = page.select_one("form.filters.audit-filters")
+    for field in ("user", "table", "key", "from", "to"):  # every box has its label
+        box = form.select_one(f'input[name="{field}"]')
+        assert form.select_one(f'label[for="{box["id"]}"]') is not None, field
+    assert "person" in [option["value"] for option in form.select("datalist option")]
+    assert form.select_one(".filter-reset") is None  # nothing filtered yet
+    filtered = BeautifulSoup(client.get("/audit", params={"table": "person"}).text, "html.parser")
+    assert filtered.select_one(".filter-reset")["href"] == "/audit"
 
 
 def test_there_is_no_route_that_edits_an_audit_entry(client):

@@ -317,7 +317,7 @@ def create_person(*, session: Session, actor: Actor, key: str, name: str, sort_n
     session.add(person)
     session.flush()
     _set_names_and_identifiers(session, person, variants, pairs)
-    _record(session, actor, "create", "person", key, None, person_snapshot(session, person), f"created person {key}")
+    _record(session, actor, "create", "person", key, None, person_snapshot(session, person), f"created person {person.name} ({key})")
     return key
 
 
@@ -341,7 +341,7 @@ def update_person(*, session: Session, actor: Actor, key: str, version: str | in
     session.flush()
     _set_names_and_identifiers(session, person, variants, pairs)
     after = person_snapshot(session, person)
-    _record(session, actor, "update", "person", key, before, after, f"edited person {key}")
+    _record(session, actor, "update", "person", key, before, after, f"edited person {person.name} ({key})")
     return person.version
 
 

@@ -272,6 +272,37 @@ def test_a_stale_membership_save_is_refused(client, database):
     assert client.get("/api/memberships/1").json()["membership"]["role"] == "warden"
 
 
+def test_a_new_person_gets_a_key_made_from_the_name_and_a_taken_key_is_refused_clearly(client, database):
+    def box(**params: str):
+        page = BeautifulSoup(client.get("/new/person/key", params=params).text, "html.parser")
+        return page.select_one("#field-key")["value"], page.select_one("input[name=suggested]")["value"]
+
+    # the key format of DESIGN.md (letters, digits and ._:-): folded, accents dropped, words hyphenated
+    assert box(name="Griet  Mölenaar") == ("p-griet-molenaar", "p-griet-molenaar")
+    assert box(name="Griet Molenaar", key="p-griet", suggested="p-griet") == ("p-griet-molenaar", "p-griet-molenaar")
+    assert box(name="Griet Molenaar", key="GM1", suggested="p-griet") == ("GM1", "p-griet")  # typed by hand: kept
+    assert client.get("/api/new/person/key", params={"name": "Griet"}).json()["value"] == "p-griet"
+    form = BeautifulSoup(client.get("/new/person").text, "html.parser")
+    name = form.select_one("#field-name")
+    assert name["hx-get"] == "/new/person/key" and name["hx-target"] == "[data-field=key]"
+    assert not form.select_one("#field-key").has_attr("required")
+
+    # a blank key is made on saving; the next person of that name gets "-2"
+    saved = post(client, "/new/person", key="", name="Griet Molenaar")
+    assert saved.status_code == 303 and saved.headers["location"] == "/persons/p-griet-molenaar"
+    assert box(name="Griet Molenaar") == ("p-griet-molenaar-2", "p-griet-molenaar-2")
+    with database.read() as s:
+        assert editing.suggest_person_key(session=s, name="Griet Molenaar") == "p-griet-molenaar-2"
+
+    # a key already used is refused, naming who has it and a free key, and nothing is written
+    before = counts(database)
+    refused = post(client, "/new/person", key="p-griet-molenaar", name="Griet Molenaar")
+    assert refused.status_code == 422
+    message = BeautifulSoup(refused.text, "html.parser").select_one("#error-key").get_text()
+    assert message == "'p-griet-molenaar' is already the key of Griet Molenaar; choose another, for example 'p-griet-molenaar-2'"
+    assert counts(database) == before
+
+
 # --- audit trail -----------------------------------------------------------------------------
 
 

@@ -303,6 +303,18 @@ def test_a_new_person_gets_a_key_made_from_the_name_and_a_taken_key_is_refused_c
     assert counts(database) == before
 
 
+def test_a_season_is_shown_in_words_beside_the_code(client):
+    # EDTF 2019, Level 1 "Seasons": 22 is summer, 24 winter
+    post(client, "/new/person", key="P9", name="Nine", born="1662-22", died="1701-24")
+    page = BeautifulSoup(client.get("/persons/P9").text, "html.parser")
+    born = page.select_one('[data-life="born"]')
+    assert born.select_one(".date-written").get_text() == "1662-22"
+    assert born.select_one(".date-words").get_text() == "(summer 1662)"
+    assert page.select_one('[data-life="died"] .date-words').get_text() == "(winter 1701)"
+    index = BeautifulSoup(client.get("/persons", params={"q": "Nine"}).text, "html.parser")
+    assert [w.get_text() for w in index.select("td.life .date-words")] == ["(summer 1662)", "(winter 1701)"]
+
+
 # --- audit trail -----------------------------------------------------------------------------
 
 

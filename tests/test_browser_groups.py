@@ -90,8 +90,11 @@ def test_group_member_two_mode_page_and_shared_groups(browser: Browser, base_url
     page.get_by_role("link", name="Network", exact=True).click()
     page.get_by_role("link", name="Persons and groups (two-mode network)").click()
     expect(page.locator("h1")).to_contain_text("two-mode network")
+    # the slice form of every network page, with the weights of the projections under "Shared groups"
+    expect(page.locator(".breadcrumbs a")).to_have_text("Network measures")
+    page.locator("#slice-form summary", has_text="Shared groups").click()
     page.get_by_label("overlap (Jaccard)").check()
-    page.get_by_role("button", name="Show").click()
+    page.get_by_role("button", name="Apply").click()
     assert parse_qs(urlsplit(page.url).query)["weighting"] == ["jaccard"]
     page.screenshot(path=str(ARTIFACTS / "two-mode.png"), full_page=True)
 

@@ -609,3 +609,13 @@ def test_a_person_without_ties_gets_a_small_box_with_a_sentence(client: TestClie
     assert alone.get_text(" ", strip=True).startswith("No tie of Zeno Zand is in this slice.")
     assert soup.select_one(".ego-counts") is None and soup.select_one("details.ego-ties") is None
     assert soup.select_one(".ego-notes") is None  # the sentence is said once, in the box
+
+
+def test_the_doctests_of_the_drawing():
+    # labels of persons told apart by their life dates keep the years when they are shortened
+    import doctest
+
+    from app.network import drawing
+
+    failures, tried = doctest.testmod(drawing)
+    assert tried and not failures

@@ -11,6 +11,7 @@ small loops on the outside of their node.
 from __future__ import annotations
 
 import math
+import re
 from collections import defaultdict
 from dataclasses import dataclass
 
@@ -169,9 +170,35 @@ def kind_styles(kinds: list[KindLabel], *, directed_view: bool = True) -> dict[s
 
 
 def short_label(name: str, length: int = LABEL_LENGTH) -> str:
-    """Return ``name`` cut to ``length`` characters with an ellipsis, for a label beside a mark."""
+    """Return ``name`` cut to ``length`` characters with an ellipsis, for a label beside a mark.
+
+    A name told apart from another by its life dates ("Pieter Schuttelaer (1650-09-30–1708-05-09)",
+    see ``network_labels``) keeps what tells it apart: the years, and the key when there is one;
+    the name itself is cut first.
+
+    >>> short_label("Pieter Schuttelaer (1650-09-30–1708-05-09)")
+    'Pieter Sc… (1650–1708)'
+    >>> short_label("Jan Smit (?–?, p-jan-2)", 16)
+    'Jan… (?–?, p-jan-2)'
+    >>> short_label("Cornelia Wyntjes van der Hoeven")
+    'Cornelia Wyntjes van…'
+    """
     name = " ".join(name.split())
-    return name if len(name) <= length else name[: length - 1].rstrip() + "…"
+    if len(name) <= length:
+        return name
+    told_apart = _TOLD_APART.fullmatch(name)
+    if told_apart:
+        life, _, key = told_apart.group(2).partition(", ")
+        years = "–".join((re.search(r"\d{4}", part) or re.search(r"\?", part) or re.search(r".+", part or "?")).group(0)
+                         for part in life.split("–"))
+        suffix = f" ({years}{', ' + key if key else ''})"
+        room = max(length - len(suffix) - 1, 3)
+        main = told_apart.group(1)
+        return (main if len(main) <= room + 1 else main[:room].rstrip() + "…") + suffix
+    return name[: length - 1].rstrip() + "…"
+
+
+_TOLD_APART = re.compile(r"(.+?) \(([^()]*[\d?][^()]*)\)")
 
 
 def ego_drawing(network: EgoNetwork, kinds: list[KindLabel], *, weight: str = "documents", direction: str = "recorded") -> Drawing:

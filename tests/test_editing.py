@@ -299,7 +299,8 @@ def test_a_new_person_gets_a_key_made_from_the_name_and_a_taken_key_is_refused_c
     refused = post(client, "/new/person", key="p-griet-molenaar", name="Griet Molenaar")
     assert refused.status_code == 422
     message = BeautifulSoup(refused.text, "html.parser").select_one("#error-key").get_text()
-    assert message == "'p-griet-molenaar' is already the key of Griet Molenaar; choose another, for example 'p-griet-molenaar-2'"
+    assert message == ("'p-griet-molenaar' is taken: it is already the key of Griet Molenaar; choose another, "
+                       "for example 'p-griet-molenaar-2'")
     assert counts(database) == before
 
 

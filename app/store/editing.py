@@ -335,7 +335,7 @@ def create_person(*, session: Session, actor: Actor, key: str, name: str, sort_n
     if key and "key" not in problems:
         taken = _key_taken_by(session, key)
         if taken is not None:
-            problems["key"] = (f"{key!r} is already the key of {taken}; choose another, for example "
+            problems["key"] = (f"{key!r} is taken: it is already the key of {taken}; choose another, for example "
                                f"{suggest_person_key(session=session, name=name, start=key)!r}")
     values, pairs = _person_fields(session, problems, None, name=name, sort_name=sort_name, kind=kind,
                                    unidentified=unidentified, living=living, born=born, died=died,

@@ -45,6 +45,7 @@ import convertdate.gregorian
 import convertdate.julian
 import edtf
 import pyparsing
+from edtf.appsettings import SEASONS as EDTF_SEASON_NAMES
 
 __all__ = [
     "CALENDARS",
@@ -57,6 +58,7 @@ __all__ = [
     "format_interval",
     "interval_or_none",
     "parse_interval",
+    "season_words",
 ]
 
 CALENDARS = ("gregorian", "julian", "julian-march", "unknown")
@@ -197,6 +199,59 @@ def interval_or_none(
     if text is None or not str(text).strip():
         return None
     return parse_interval(text, calendar, settings=settings)
+
+
+# A season code: a four-digit year, a hyphen and 21 to 41, not followed by another digit.
+_SEASON_CODE = re.compile(r"(?<![\dX-])(-?\d{4})-(2[1-9]|3\d|4[01])(?!\d)")
+_MONTHS = ("January", "February", "March", "April", "May", "June", "July", "August", "September", "October",
+           "November", "December")
+_ORDINALS = ("first", "second", "third", "fourth")
+# Level 2 sub-year groupings of the EDTF specification beyond the four seasons: each code's words,
+# {year} standing for the year. The months of each are those of DEFAULT_SEASONS.
+_GROUPINGS: dict[int, str] = {
+    **{25 + i: f"{{season}} {{year}} (northern hemisphere)" for i in range(4)},
+    **{29 + i: f"{{season}} {{year}} (southern hemisphere)" for i in range(4)},
+    **{33 + i: f"{_ORDINALS[i]} quarter of {{year}} ({{months}})" for i in range(4)},
+    **{37 + i: f"{{months}} {{year}} ({_ORDINALS[i]} four months)" for i in range(3)},
+    **{40 + i: f"{_ORDINALS[i]} half of {{year}} ({{months}})" for i in range(2)},
+}
+
+
+def season_words(text: str | None) -> str | None:
+    """Return ``text`` with each EDTF season code in words ("1662-22" -> "summer 1662"), or None without one.
+
+    The names of the four seasons (21-24) are the edtf package's; the other sub-year groupings of
+    EDTF Level 2 (25-41: seasons of each hemisphere, quarters, thirds, halves) are named here, the
+    latter with their months. A code the edtf package does not read as a season is left as it is.
+
+    >>> season_words("1662-22")
+    'summer 1662'
+    >>> season_words("1701-21/1702-24~")
+    'spring 1701/winter 1702~'
+    >>> season_words("1703-35")
+    'third quarter of 1703 (July–September)'
+    >>> season_words("1703-05-22") is None
+    True
+    """
+    if not text or not _SEASON_CODE.search(text):
+        return None
+
+    def words(match: re.Match) -> str:
+        year, code = match.group(1), int(match.group(2))
+        try:
+            parsed = _parse(f"{year}-{code}")
+        except DateError:
+            return match.group(0)
+        if not isinstance(parsed, edtf.Season):
+            return match.group(0)
+        if code in EDTF_SEASON_NAMES:
+            return f"{EDTF_SEASON_NAMES[code]} {int(year)}"
+        first, last = DEFAULT_SEASONS[code]
+        season = EDTF_SEASON_NAMES[21 + (code - 25) % 4] if code <= 32 else ""
+        return _GROUPINGS[code].format(season=season, year=int(year), months=f"{_MONTHS[first - 1]}–{_MONTHS[last - 1]}")
+
+    shown = _SEASON_CODE.sub(words, text)
+    return None if shown == text else shown
 
 
 def format_interval(interval: DateInterval) -> str:

@@ -15,3 +15,24 @@ def fold(text: str) -> str:
     decomposed = unicodedata.normalize("NFKD", text.casefold().translate(_SPECIAL))
     bare = "".join(ch for ch in decomposed if not unicodedata.combining(ch))
     return _SPACES.sub(" ", bare).strip()
+
+
+_NOT_IN_KEY = re.compile(r"[^a-z0-9]+")
+KEY_PREFIX = "p-"
+"""Keys made from a name start so, as in the demo's workbook ("p-jehan-marteau")."""
+
+
+def key_from_name(name: str, *, room: int = 0) -> str:
+    """Return a person key made from ``name``: folded, words joined by hyphens, within the key format.
+
+    ``room`` keeps that many characters free under the 100 the key format allows (for a "-2").
+
+    >>> key_from_name("Griet  Molenaar")
+    'p-griet-molenaar'
+    >>> key_from_name("Jöns Ørsted (the elder)")
+    'p-jons-orsted-the-elder'
+    >>> key_from_name("  ")
+    'p-person'
+    """
+    words = _NOT_IN_KEY.sub("-", fold(name)).strip("-") or "person"
+    return (KEY_PREFIX + words)[: 100 - room].rstrip("-")

@@ -13,6 +13,7 @@ from __future__ import annotations
 import os
 import shutil
 from pathlib import Path
+from typing import TYPE_CHECKING
 
 import pytest
 from fastapi.testclient import TestClient
@@ -20,6 +21,9 @@ from fastapi.testclient import TestClient
 from app.config import Settings, database_url
 from app.db import Database, upgrade
 from tests.postgres import PostgresServer, postgres_bin_dir
+
+if TYPE_CHECKING:
+    from playwright.sync_api import Browser, Page
 
 ROOT = Path(__file__).resolve().parent.parent
 
@@ -162,6 +166,43 @@ def chromium_path() -> str | None:
         if os.path.exists(candidate):
             return candidate
     return shutil.which("chromium")
+
+
+# Debian's chromium in headless mode with nothing of its own talking to the network.
+CHROMIUM_ARGS = [
+    "--headless",
+    "--no-sandbox",
+    "--disable-gpu",
+    "--no-first-run",
+    "--disable-background-networking",
+    "--disable-component-update",
+    "--disable-sync",
+]
+
+
+@pytest.fixture(scope="module")
+def browser():
+    """One real headless Chromium per test module, launched with ``CHROMIUM_ARGS``.
+
+    Each launch runs on a fresh profile: Playwright makes a new temporary folder and passes it
+    as ``--user-data-dir`` (it refuses that flag among the arguments), and each ``new_page``
+    opens in its own context, so tests share no cookies. Playwright is imported here so that
+    tests without a browser do not need it.
+    """
+    from playwright.sync_api import sync_playwright
+
+    with sync_playwright() as playwright:
+        chromium = playwright.chromium.launch(executable_path=chromium_path(), args=CHROMIUM_ARGS)
+        yield chromium
+        chromium.close()
+
+
+def open_page(browser: Browser, base_url: str, *, width: int = 1280, height: int = 900) -> tuple[Page, list[str]]:
+    """Open a new page; return it and the list that collects every request leaving the site."""
+    page = browser.new_page(viewport={"width": width, "height": height})
+    outside: list[str] = []
+    page.on("request", lambda request: None if request.url.startswith(base_url) else outside.append(request.url))
+    return page, outside
 
 
 def pytest_collection_modifyitems(config, items):  # noqa: ANN001

@@ -88,6 +88,7 @@ for method, template, path in [
     ("GET", "/new/group", "/new/group"), ("POST", "/new/group", "/new/group"),
     ("GET", "/new/membership", "/new/membership"), ("POST", "/new/membership", "/new/membership"),
     ("GET", "/new/person", "/new/person"), ("POST", "/new/person", "/new/person"),
+    ("GET", "/new/person/key", "/new/person/key?name=Griet"),
     ("GET", "/new/relation", "/new/relation"), ("POST", "/new/relation", "/new/relation"),
     ("GET", "/new/source", "/new/source"), ("POST", "/new/source", "/new/source"),
     ("POST", "/person-links/{link_id}/delete", "/person-links/999/delete"),

@@ -5,22 +5,13 @@ boosted by htmx, so this also checks that a refused save (answered 200 to htmx) 
 from __future__ import annotations
 
 import pytest
-from playwright.sync_api import Browser, expect, sync_playwright
+from playwright.sync_api import Browser, expect
 
 from app.config import database_url
-from conftest import ARTIFACTS, chromium_path
+from conftest import ARTIFACTS, open_page
 from helpers import add_tiny_dataset, running_server
-from test_browser_home import CHROMIUM_ARGS, open_page
 
 pytestmark = pytest.mark.browser
-
-
-@pytest.fixture
-def browser():
-    with sync_playwright() as playwright:
-        chromium = playwright.chromium.launch(executable_path=chromium_path(), args=CHROMIUM_ARGS)
-        yield chromium
-        chromium.close()
 
 
 def test_create_a_person_and_a_relation_with_its_evidence(browser: Browser, db_path, database):
@@ -61,4 +52,25 @@ def test_create_a_person_and_a_relation_with_its_evidence(browser: Browser, db_p
         expect(row).to_have_count(1)
         expect(row.locator(".certainty")).to_have_text("probable")
         page.screenshot(path=str(ARTIFACTS / "editing-2-person.png"), full_page=True)
+        assert outside == []
+
+
+def test_the_key_follows_the_name_until_it_is_typed_by_hand(browser: Browser, db_path, database):
+    add_tiny_dataset(database)
+    with running_server(database_url(db_path), timeout=120) as base_url:
+        page, outside = open_page(browser, base_url)
+        page.goto(f"{base_url}/new/person")
+        key = page.locator("#field-key")
+        page.locator("#field-name").press_sequentially("Griet Molenaar", delay=20)
+        expect(key).to_have_value("p-griet-molenaar")
+        page.locator("#field-name").press_sequentially(" de Jonge", delay=20)
+        expect(key).to_have_value("p-griet-molenaar-de-jonge")
+        key.fill("GMJ")  # a key of one's own is kept while the name changes
+        page.locator("#field-name").fill("Griet Molenaar de Jonger")
+        page.wait_for_load_state("networkidle")
+        expect(key).to_have_value("GMJ")
+        page.screenshot(path=str(ARTIFACTS / "new-person-key.png"), full_page=True)
+        page.get_by_role("button", name="Create the person").click()
+        expect(page.locator("#person-heading")).to_contain_text("Griet Molenaar de Jonger")
+        assert page.url.endswith("/persons/GMJ")
         assert outside == []

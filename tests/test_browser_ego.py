@@ -5,24 +5,15 @@ from __future__ import annotations
 from pathlib import Path
 
 import pytest
-from playwright.sync_api import Browser, expect, sync_playwright
+from playwright.sync_api import Browser, expect
 
 from app.config import database_url
 from app.db import Database
-from conftest import ARTIFACTS, chromium_path
+from conftest import ARTIFACTS, open_page
 from helpers import running_server
-from test_browser_home import CHROMIUM_ARGS, open_page
 from tests.slice_world import import_world, key, slice_world
 
 pytestmark = pytest.mark.browser
-
-
-@pytest.fixture
-def browser():
-    with sync_playwright() as playwright:
-        chromium = playwright.chromium.launch(executable_path=chromium_path(), args=CHROMIUM_ARGS)
-        yield chromium
-        chromium.close()
 
 
 def test_ego_page_in_a_browser(browser: Browser, db_path: Path, database: Database, tmp_path: Path):

@@ -6,27 +6,18 @@ from pathlib import Path
 from urllib.parse import parse_qs, urlsplit
 
 import pytest
-from playwright.sync_api import Browser, expect, sync_playwright
+from playwright.sync_api import Browser, expect
 
 from app.config import database_url
 from app.db import Database, upgrade
 from app.exchange.workbook import import_workbook
-from conftest import ARTIFACTS, chromium_path
+from conftest import ARTIFACTS, open_page
 from helpers import running_server
-from test_browser_home import CHROMIUM_ARGS, open_page
 from tests.test_groups import world
 from tests.twomode_world import MARKUP_GROUP
 from tests.workbooks import write_workbook
 
 pytestmark = pytest.mark.browser
-
-
-@pytest.fixture(scope="module")
-def browser():
-    with sync_playwright() as playwright:
-        chromium = playwright.chromium.launch(executable_path=chromium_path(), args=CHROMIUM_ARGS)
-        yield chromium
-        chromium.close()
 
 
 @pytest.fixture(scope="module")
@@ -99,8 +90,11 @@ def test_group_member_two_mode_page_and_shared_groups(browser: Browser, base_url
     page.get_by_role("link", name="Network", exact=True).click()
     page.get_by_role("link", name="Persons and groups (two-mode network)").click()
     expect(page.locator("h1")).to_contain_text("two-mode network")
+    # the slice form of every network page, with the weights of the projections under "Shared groups"
+    expect(page.locator(".breadcrumbs a")).to_have_text("Network measures")
+    page.locator("#slice-form summary", has_text="Shared groups").click()
     page.get_by_label("overlap (Jaccard)").check()
-    page.get_by_role("button", name="Show").click()
+    page.get_by_role("button", name="Apply").click()
     assert parse_qs(urlsplit(page.url).query)["weighting"] == ["jaccard"]
     page.screenshot(path=str(ARTIFACTS / "two-mode.png"), full_page=True)
 

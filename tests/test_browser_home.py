@@ -5,41 +5,16 @@ from __future__ import annotations
 from pathlib import Path
 
 import pytest
-from playwright.sync_api import Browser, Page, expect, sync_playwright
+from playwright.sync_api import Browser, expect
 
 from app.config import database_url
 from app.db import Database
-from conftest import ARTIFACTS, chromium_path
+from conftest import ARTIFACTS, open_page
 from helpers import TINY_DATA_VERSION, add_person, add_tiny_dataset, running_server
 
 pytestmark = pytest.mark.browser
 
-CHROMIUM_ARGS = [
-    "--headless",
-    "--no-sandbox",
-    "--disable-gpu",
-    "--no-first-run",
-    "--disable-background-networking",
-    "--disable-component-update",
-    "--disable-sync",
-]
 DATASET_NAME = "Letters of a printing house, 1650-1710"
-
-
-@pytest.fixture
-def browser():
-    with sync_playwright() as playwright:
-        chromium = playwright.chromium.launch(executable_path=chromium_path(), args=CHROMIUM_ARGS)
-        yield chromium
-        chromium.close()
-
-
-def open_page(browser: Browser, base_url: str, *, width: int = 1280, height: int = 900) -> tuple[Page, list[str]]:
-    """Open a new page; return it and the list that collects every request leaving the site."""
-    page = browser.new_page(viewport={"width": width, "height": height})
-    outside: list[str] = []
-    page.on("request", lambda request: None if request.url.startswith(base_url) else outside.append(request.url))
-    return page, outside
 
 
 def test_home_page_in_a_browser(browser: Browser, db_path: Path, database: Database):

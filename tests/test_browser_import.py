@@ -5,23 +5,14 @@ from __future__ import annotations
 from pathlib import Path
 
 import pytest
-from playwright.sync_api import Browser, expect, sync_playwright
+from playwright.sync_api import Browser, expect
 
 from app.config import database_url
-from conftest import ARTIFACTS, chromium_path
+from conftest import ARTIFACTS, open_page
 from helpers import running_server
-from test_browser_home import CHROMIUM_ARGS, open_page
 from tests.workbooks import small_world, write_workbook
 
 pytestmark = pytest.mark.browser
-
-
-@pytest.fixture(scope="module")
-def browser():
-    with sync_playwright() as playwright:
-        chromium = playwright.chromium.launch(executable_path=chromium_path(), args=CHROMIUM_ARGS)
-        yield chromium
-        chromium.close()
 
 
 def test_upload_with_two_errors_fix_preview_confirm_and_find(browser: Browser, db_path: Path, database, tmp_path: Path):

@@ -9,14 +9,13 @@ from urllib.parse import parse_qs, urlsplit
 
 import httpx
 import pytest
-from playwright.sync_api import Browser, Page, expect, sync_playwright
+from playwright.sync_api import Browser, Page, expect
 
 from app.config import database_url
 from app.db import Database, upgrade
 from app.exchange.workbook import import_workbook
-from conftest import ARTIFACTS, DEMO_WORKBOOK, chromium_path
+from conftest import ARTIFACTS, DEMO_WORKBOOK, open_page
 from helpers import running_server
-from test_browser_home import CHROMIUM_ARGS, open_page
 
 pytestmark = pytest.mark.browser
 
@@ -33,14 +32,6 @@ def demo_url(tmp_path_factory: pytest.TempPathFactory):
     database.dispose()
     with running_server(database_url(path)) as url:
         yield url
-
-
-@pytest.fixture(scope="module")
-def browser():
-    with sync_playwright() as playwright:
-        chromium = playwright.chromium.launch(executable_path=chromium_path(), args=CHROMIUM_ARGS)
-        yield chromium
-        chromium.close()
 
 
 def shoot(page: Page, number: int, step: str) -> None:

@@ -24,6 +24,7 @@ from app.dates import (
     format_interval,
     interval_or_none,
     parse_interval,
+    season_words,
 )
 
 D = date
@@ -450,3 +451,33 @@ def test_interval_refuses_end_before_start():
 ])
 def test_format_interval(text, shown):
     assert format_interval(parse_interval(text)) == shown
+
+
+# EDTF 2019, Level 1 "Seasons": 21 spring, 22 summer, 23 autumn, 24 winter; Level 2 "Sub-year
+# groupings": 25-28 spring..winter of the northern hemisphere, 29-32 of the southern hemisphere,
+# 33-36 quarters 1-4, 37-39 quadrimesters 1-3, 40-41 semesters 1-2 (from memory of the headings).
+@pytest.mark.parametrize(("written", "words"), [
+    ("1662-21", "spring 1662"), ("1662-22", "summer 1662"), ("1662-23", "autumn 1662"), ("1662-24", "winter 1662"),
+    ("1662-26", "summer 1662 (northern hemisphere)"), ("1662-30", "summer 1662 (southern hemisphere)"),
+    ("1662-33", "first quarter of 1662 (January–March)"), ("1662-36", "fourth quarter of 1662 (October–December)"),
+    ("1662-37", "January–April 1662 (first four months)"), ("1662-39", "September–December 1662 (third four months)"),
+    ("1662-40", "first half of 1662 (January–June)"), ("1662-41", "second half of 1662 (July–December)"),
+    ("1701-21/1702-24", "spring 1701/winter 1702"), ("1705-23/..", "autumn 1705/.."),
+])
+def test_season_codes_in_words(written: str, words: str):
+    assert season_words(written) == words
+    parse_interval(written, "gregorian")  # and each is a date the store accepts
+
+
+def test_every_season_code_has_words_and_other_dates_have_none():
+    import edtf
+    from edtf.appsettings import SEASONS
+
+    for code in range(21, 42):  # every sub-year grouping of EDTF 2019, Levels 1 and 2
+        assert isinstance(edtf.parse_edtf(f"1703-{code}"), edtf.Season)  # the edtf package reads it as a season
+        words = season_words(f"1703-{code}")
+        assert words and "1703" in words and f"-{code}" not in words, code
+    # the four seasons of Level 1 carry the edtf package's own names
+    assert {code: season_words(f"1703-{code}") for code in SEASONS} == {code: f"{name} 1703" for code, name in SEASONS.items()}
+    for plain in ("1703-05-22", "1703-12", "1703", "1703-05-21/1703-06-24", "", None, "[1701, 1703]"):
+        assert season_words(plain) is None, plain

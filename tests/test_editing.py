@@ -8,6 +8,7 @@ import json
 import re
 
 import pytest
+from bs4 import BeautifulSoup
 from fastapi.testclient import TestClient
 from sqlalchemy import func, select
 
@@ -271,6 +272,50 @@ def test_a_stale_membership_save_is_refused(client, database):
     assert client.get("/api/memberships/1").json()["membership"]["role"] == "warden"
 
 
+def test_a_new_person_gets_a_key_made_from_the_name_and_a_taken_key_is_refused_clearly(client, database):
+    def box(**params: str):
+        page = BeautifulSoup(client.get("/new/person/key", params=params).text, "html.parser")
+        return page.select_one("#field-key")["value"], page.select_one("input[name=suggested]")["value"]
+
+    # the key format of DESIGN.md (letters, digits and ._:-): folded, accents dropped, words hyphenated
+    assert box(name="Griet  Mölenaar") == ("p-griet-molenaar", "p-griet-molenaar")
+    assert box(name="Griet Molenaar", key="p-griet", suggested="p-griet") == ("p-griet-molenaar", "p-griet-molenaar")
+    assert box(name="Griet Molenaar", key="GM1", suggested="p-griet") == ("GM1", "p-griet")  # typed by hand: kept
+    assert client.get("/api/new/person/key", params={"name": "Griet"}).json()["value"] == "p-griet"
+    form = BeautifulSoup(client.get("/new/person").text, "html.parser")
+    name = form.select_one("#field-name")
+    assert name["hx-get"] == "/new/person/key" and name["hx-target"] == "[data-field=key]"
+    assert not form.select_one("#field-key").has_attr("required")
+
+    # a blank key is made on saving; the next person of that name gets "-2"
+    saved = post(client, "/new/person", key="", name="Griet Molenaar")
+    assert saved.status_code == 303 and saved.headers["location"] == "/persons/p-griet-molenaar"
+    assert box(name="Griet Molenaar") == ("p-griet-molenaar-2", "p-griet-molenaar-2")
+    with database.read() as s:
+        assert editing.suggest_person_key(session=s, name="Griet Molenaar") == "p-griet-molenaar-2"
+
+    # a key already used is refused, naming who has it and a free key, and nothing is written
+    before = counts(database)
+    refused = post(client, "/new/person", key="p-griet-molenaar", name="Griet Molenaar")
+    assert refused.status_code == 422
+    message = BeautifulSoup(refused.text, "html.parser").select_one("#error-key").get_text()
+    assert message == ("'p-griet-molenaar' is taken: it is already the key of Griet Molenaar; choose another, "
+                       "for example 'p-griet-molenaar-2'")
+    assert counts(database) == before
+
+
+def test_a_season_is_shown_in_words_beside_the_code(client):
+    # EDTF 2019, Level 1 "Seasons": 22 is summer, 24 winter
+    post(client, "/new/person", key="P9", name="Nine", born="1662-22", died="1701-24")
+    page = BeautifulSoup(client.get("/persons/P9").text, "html.parser")
+    born = page.select_one('[data-life="born"]')
+    assert born.select_one(".date-written").get_text() == "1662-22"
+    assert born.select_one(".date-words").get_text() == "(summer 1662)"
+    assert page.select_one('[data-life="died"] .date-words').get_text() == "(winter 1701)"
+    index = BeautifulSoup(client.get("/persons", params={"q": "Nine"}).text, "html.parser")
+    assert [w.get_text() for w in index.select("td.life .date-words")] == ["(summer 1662)", "(winter 1701)"]
+
+
 # --- audit trail -----------------------------------------------------------------------------
 
 
@@ -304,6 +349,23 @@ def test_the_audit_page_filters_by_user_record_and_date(client, database):
     assert "/audit?table=source&amp;key=S1" in client.get("/sources/S1").text
     assert "/audit?table=relation&amp;key=1" in client.get("/relations/1").text
     assert "/audit?table=group&amp;key=G1" in client.get("/groups/G1").text
+
+
+def test_the_audit_page_names_the_persons_and_lays_its_filters_out_in_a_row(client):
+    post(client, "/new/person", key="P9", name="Nine")
+    page = BeautifulSoup(client.get("/audit").text, "html.parser")
+    [row] = page.select("tr[data-action=create]")
+    assert row.select_one(".summary").get_text(strip=True) == "created person Nine (P9)"
+    name = row.select_one("a.record-name")
+    assert name.get_text(strip=True) == "Nine" and name["href"] == "/persons/P9"
+    form = page.select_one("form.filters.audit-filters")
+    for field in ("user", "table", "key", "from", "to"):  # every box has its label
+        box = form.select_one(f'input[name="{field}"]')
+        assert form.select_one(f'label[for="{box["id"]}"]') is not None, field
+    assert "person" in [option["value"] for option in form.select("datalist option")]
+    assert form.select_one(".filter-reset") is None  # nothing filtered yet
+    filtered = BeautifulSoup(client.get("/audit", params={"table": "person"}).text, "html.parser")
+    assert filtered.select_one(".filter-reset")["href"] == "/audit"
 
 
 def test_there_is_no_route_that_edits_an_audit_entry(client):

@@ -577,3 +577,84 @@ def test_the_cap_keeps_the_strongest_alters_whatever_the_direction_mode(client: 
             assert len(kept) == min(2, len(ranked)), direction
             assert kept == set(ranked[:2]), (direction, strength)
             assert capped.left_out[1] == len(ranked) - len(kept)
+
+
+# --- the drawing's geometry --------------------------------------------------------------------
+
+
+def _star(alters: int, ties: list[tuple[int, int]], radius: int = 1):  # noqa: ANN202
+    """An ego tied to ``alters`` persons, and the given ties between alters (by number), as a network."""
+    from app.network.ego import EgoEdge, EgoNetwork, EgoNode
+
+    def edge(a: str, b: str) -> EgoEdge:
+        return EgoEdge(a, b, a, b, "business", "business", False, 1, 1, 1.0, [1])
+
+    nodes = [EgoNode("ego", "Ego", "individual", False, alters, 0)]
+    nodes += [EgoNode(f"a{i:02d}", f"Alter {i}", "individual", False, 1, 1) for i in range(alters)]
+    edges = [edge("ego", f"a{i:02d}") for i in range(alters)] + [edge(f"a{i:02d}", f"a{j:02d}") for i, j in ties]
+    return EgoNetwork("ego", radius, nodes, edges, max_alters=200)
+
+
+def _points(path: str, steps: int = 50) -> list[tuple[float, float]]:
+    """Points along an SVG path of one line (M … L …) or one quadratic curve (M … Q … …)."""
+    import re
+
+    numbers = [float(n) for n in re.findall(r"-?\d+(?:\.\d+)?", path)]
+    if "Q" in path:
+        (x1, y1, cx, cy, x2, y2) = numbers
+        return [((1 - t) ** 2 * x1 + 2 * (1 - t) * t * cx + t * t * x2, (1 - t) ** 2 * y1 + 2 * (1 - t) * t * cy + t * t * y2)
+                for t in (i / steps for i in range(steps + 1))]
+    (x1, y1, x2, y2) = numbers
+    return [(x1 + (x2 - x1) * t, y1 + (y2 - y1) * t) for t in (i / steps for i in range(steps + 1))]
+
+
+def test_a_tie_between_two_alters_goes_round_the_ego():
+    import math
+
+    from app.network.drawing import EGO_CLEARANCE, ego_drawing
+    from app.store.network_labels import KindLabel
+
+    kinds = [KindLabel(1, "business", "business", False, None)]
+    # six alters on the ring: 0 and 3 face each other across the ego, 0 and 1 are neighbours
+    drawing = ego_drawing(_star(6, [(0, 3), (1, 4), (0, 1)]), kinds)
+    ego = next(n for n in drawing.nodes if n.ego)
+    far = {(e.source, e.target): e for e in drawing.edges if e.far}
+    assert set(far) == {("a00", "a03"), ("a01", "a04"), ("a00", "a01")}
+    for pair in (("a00", "a03"), ("a01", "a04")):  # straight, these would run over the ego's mark and ties
+        nearest = min(math.hypot(x - ego.x, y - ego.y) for x, y in _points(far[pair].path))
+        assert nearest >= ego.size + EGO_CLEARANCE - 1, (pair, nearest)
+    assert "Q" not in far[("a00", "a01")].path  # a tie clear of the ego keeps its straight course
+    assert not drawing.crowded and all(e.width == 1.2 for e in drawing.edges)
+
+
+def test_a_crowded_drawing_draws_the_ties_between_alters_fainter():
+    from app.network.drawing import CROWDED, FAR_WIDTH, ego_drawing
+    from app.store.network_labels import KindLabel
+
+    kinds = [KindLabel(1, "business", "business", False, None)]
+    drawing = ego_drawing(_star(CROWDED + 1, [(i, i + 1) for i in range(CROWDED)]), kinds)
+    assert drawing.crowded
+    assert {e.width for e in drawing.edges if e.far} == {round(1.2 * FAR_WIDTH, 2)}
+    assert {e.width for e in drawing.edges if not e.far} == {1.2}
+    svg = BeautifulSoup(templates.get_template("_ego_svg.html").render(
+        drawing=drawing, svg_label="x", standalone=False, slice=Slice(), urls=Urls()), "html.parser")
+    assert len(svg.select("path.ego-line-far")) == CROWDED
+
+
+def test_a_person_without_ties_gets_a_small_box_with_a_sentence(client: TestClient):
+    soup = BeautifulSoup(client.get(f"/persons/{key('Z')}/ego").text, "html.parser")
+    assert soup.select_one("#ego-panel svg.ego-svg") is None  # no big empty drawing
+    alone = soup.select_one("figure.ego-alone")
+    assert alone.get_text(" ", strip=True).startswith("No tie of Zeno Zand is in this slice.")
+    assert soup.select_one(".ego-counts") is None and soup.select_one("details.ego-ties") is None
+    assert soup.select_one(".ego-notes") is None  # the sentence is said once, in the box
+
+
+def test_the_doctests_of_the_drawing():
+    # labels of persons told apart by their life dates keep the years when they are shortened
+    import doctest
+
+    from app.network import drawing
+
+    failures, tried = doctest.testmod(drawing)
+    assert tried and not failures

@@ -12,6 +12,7 @@ import csv
 import dataclasses
 import io
 from datetime import datetime
+import math
 from pathlib import Path
 from urllib.parse import parse_qsl, urlsplit
 
@@ -333,3 +334,45 @@ def test_openapi_documents_the_routes_and_every_field(client: TestClient):
         assert set(properties) == {f.name for f in dataclasses.fields(model)}, model.__name__
         undocumented = [name for name, spec in properties.items() if not spec.get("description")]
         assert undocumented == [], model.__name__
+
+
+def _label_box(node) -> tuple[float, float, float, float]:
+    """The box of a label as the drawing estimates it (letters 0.6 of the font size wide), unrotated labels only."""
+    lines = node.lines or [node.label]
+    width = 0.6 * node.font_size * max(len(line) for line in lines)
+    left = {"start": node.label_x, "end": node.label_x - width, "middle": node.label_x - width / 2}[node.anchor]
+    top = node.label_y - node.font_size / 2
+    return left, top, left + width, top + len(lines) * 1.15 * node.font_size
+
+
+def test_the_centre_label_stays_inside_the_ring_clear_of_the_members_labels():
+    from types import SimpleNamespace
+
+    from app.network.group_drawing import group_neighbourhood
+    from app.network.twomode import MembershipEvidence
+
+    long_name = "Confraternity of the Holy Sacrament and of Saint Ælfric in the parish of Østmere"
+    groups = {0: SimpleNamespace(key="g-centre", name=long_name, kind=None)}
+    persons = {p: SimpleNamespace(key=f"p-{p:02d}", name=f"Member number {p}", kind="individual", unidentified=False)
+               for p in range(1, 9)}
+    evidence = [MembershipEvidence(p, p, 0, "", None, None, None, None, None, None, (p,), (p,)) for p in persons]
+    drawing = group_neighbourhood(0, evidence, persons=persons, groups=groups).drawing
+    [centre] = [n for n in drawing.nodes if n.centre]
+    members = [n for n in drawing.nodes if n.mode == "person"]
+    ring = math.hypot(members[0].x - centre.x, members[0].y - centre.y)
+    assert 1 < len(centre.lines) <= 3 and centre.lines[-1].endswith("…")
+    left, top, right, bottom = _label_box(centre)
+    for x, y in ((left, top), (left, bottom), (right, top), (right, bottom)):  # every corner inside the ring
+        assert math.hypot(x - centre.x, y - centre.y) < ring - members[0].size, (x, y)
+    for member in members:
+        other = _label_box(member)
+        assert other[2] <= left or other[0] >= right or other[3] <= top or other[1] >= bottom, member.name
+    svg = BeautifulSoup(render_group_svg(drawing), "html.parser")
+    assert [t.get_text() for t in svg.select('a[data-centre="yes"] text tspan')] == centre.lines
+
+
+def render_group_svg(drawing) -> str:  # noqa: ANN001
+    from app.views.common import templates, Urls
+    from app.network.slice import Slice
+
+    return templates.get_template("_group_svg.html").render(drawing=drawing, svg_label="x", slice=Slice(), urls=Urls())

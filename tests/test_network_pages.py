@@ -32,6 +32,7 @@ from app.store.measure_results import count_stored_results
 from app.network.definitions import FAMILIES as PAGE_INFO
 from app.network.definitions import MEASURE_INFO, Definition
 from app.network.measures import MEASURES
+from app.views import charts
 from app.views import network as network_views
 from app.views import network_models
 from tests.evidence_world import XSS_NAME, world, world_file  # noqa: F401 - fixtures
@@ -240,7 +241,7 @@ def test_on_a_large_slice_even_cheap_results_wait_for_a_recompute(florentine, mo
 
 
 def test_the_doctests_of_the_results_and_pages():
-    for module in (network_results, network_views):
+    for module in (network_results, network_views, charts):
         failures, tried = doctest.testmod(module)
         assert tried and not failures, module.__name__
 
@@ -630,3 +631,48 @@ def test_every_measure_page_warns_on_a_small_slice(florentine):
     summary = BeautifulSoup(client.get("/network/summary", params={"direction": "undirected"}).text, "html.parser")
     assert summary.select_one(".small-slice-note") is None
     assert "Only 15 persons and 20 ties" in summary.get_text()
+
+
+def test_centrality_warns_when_one_collection_holds_most_of_the_evidence(client: TestClient):
+    # the evidence world: most attestations come from the Vell family papers; the centrality page
+    # gives the summary's own warning, word for word, and the summary does not give it twice
+    summary = client.get("/api/network/summary").json()
+    [concentrated] = [w for w in summary["warnings"] if "come from one collection" in w]
+    for measure in ("degree", "betweenness", "pagerank"):
+        context = client.get("/api/network/centrality", params={"measure": measure}).json()["context"]
+        assert context["collection_note"] == concentrated, measure
+        page = soup_of(client.get("/network/centrality", params={"measure": measure}))
+        assert page.select_one(".collection-note").get_text(strip=True) == concentrated
+    assert soup_of(client.get("/network/summary")).select_one(".collection-note") is None
+    # the other measure pages do not repeat it
+    assert client.get("/api/network/components").json()["context"]["collection_note"] is None
+
+
+def test_the_degree_chart_has_whole_number_ticks_and_bars_clear_of_the_axis(client: TestClient):
+    # a handful of persons: pygal's own ticks would be 0, 0.2, 0.4 ... and its axis would run at degree 0
+    svg = BeautifulSoup(client.get("/network/summary/degrees.svg").text, "xml")
+    for axis in ("x", "y"):
+        ticks = [text.get_text() for text in svg.select(f"g.axis.{axis} g.guides text")]
+        assert ticks and all(tick.isdigit() for tick in ticks), (axis, ticks)
+    bars = svg.select("g.serie-0 rect.rect")
+    body = client.get("/api/network/summary").json()
+    assert len(bars) == len(body["degree_distribution"])  # no bar of the margins is left
+    drawn = [p for p in svg.select("g.axis.x path") if "guide" not in p["class"].split()]  # guides are hidden
+    assert drawn
+    assert min(float(bar["x"]) for bar in bars) > max(float(p["d"].split()[0][1:]) for p in drawn) + 10
+
+
+def test_the_home_and_the_summary_say_what_each_counts(client: TestClient):
+    # the evidence world holds a person without evidence and a draft: the two pages' figures differ,
+    # and each page says what it counts and points to the other
+    home = soup_of(client.get("/"))
+    summary = soup_of(client.get("/network/summary"))
+    stored = int(home.select_one('[data-count="persons"]')["data-value"])
+    in_slice = client.get("/api/network/summary").json()["persons"]
+    assert stored > in_slice
+    home_note = home.select_one(".counts-note")
+    assert "everything stored" in home_note.get_text() and "drafts" in home_note.get_text()
+    assert home_note.select_one("a")["href"] == "/network/summary"
+    summary_note = summary.select_one(".counts-note")
+    assert "this slice only" in summary_note.get_text() and "everything stored" in summary_note.get_text()
+    assert summary_note.select_one("a")["href"] == "/"

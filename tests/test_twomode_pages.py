@@ -306,3 +306,49 @@ def test_long_tables_are_paged(client: TestClient):
     previous = nav.select_one('a[rel="prev"]')["href"]
     assert "weighting=newman" in previous and "person_pairs_page" not in previous
     assert len(next(csv.reader(io.StringIO(client.get("/network/two-mode", params={"format": "csv", "table": "persons"}).text)))) == 4
+
+
+def test_the_page_has_the_shared_slice_form_the_exports_and_short_tables(client: TestClient):
+    soup = BeautifulSoup(client.get("/network/two-mode", params={"weighting": "newman"}).text, "lxml")
+    assert soup.select_one(".breadcrumbs a")["href"] == "/network?weighting=newman"
+    form = soup.select_one("form#slice-form")
+    assert form["action"] == "/network/two-mode"
+    assert form.select_one('input[name="weighting"][value="newman"]').has_attr("checked")
+    assert form.select_one('input[name="overlap"]') is not None and form.select_one('input[name="max_group_size"]') is not None
+    assert soup.select_one("form.two-mode-form") is None  # one form, the one every network page has
+    exports = soup.select_one("section.exports")
+    assert exports.select_one('a[data-export="graphml"]')["href"].startswith("/export/graphml?")
+    # the 100 rows of a page: the first 10 shown, the others folded away below them
+    pairs = soup.select_one("#person-pairs")
+    assert pairs["data-rows"] == "100"
+    assert len(pairs.select(":scope > table tbody tr")) == 10
+    assert len(pairs.select("details.more-rows tbody tr")) == 90
+    assert pairs.select_one("details.more-rows summary").get_text(strip=True) == "The other 90 pairs of this page"
+
+
+def test_persons_of_one_name_are_told_apart(tmp_path):
+    from app.config import Settings, database_url
+    from app.db import Database, upgrade
+    from app.exchange.workbook import import_workbook
+    from tests.workbooks import write_workbook
+
+    tables = {
+        "persons.csv": [{"key": "p-jan-1", "name": "Jan Smit", "born": "1650", "died": "1700"},
+                        {"key": "p-jan-2", "name": "Jan Smit", "born": "1672"},
+                        {"key": "p-kee", "name": "Kee Smit"}],
+        "groups.csv": [{"key": "g-guild", "name": "Guild", "kind": "guild"}],
+        "sources.csv": [{"key": "s-roll", "kind": "register", "title": "Roll of the guild"}],
+        "memberships.csv": [{"key": f"m-{p}", "person": p, "group": "g-guild", "role": "member", "source": "s-roll",
+                             "evidence": "register", "certainty": "certain"} for p in ("p-jan-1", "p-jan-2", "p-kee")],
+    }
+    database = Database(database_url(tmp_path / "attesta.db"))
+    upgrade(database)
+    import_workbook(database, write_workbook(tmp_path / "wb", tables), size_limit=10**9)
+    database.dispose()
+    with TestClient(create_app(Settings(database_url=database_url(tmp_path / "attesta.db")))) as smiths:
+        names = {(p["a"]["key"], p["b"]["key"]): (p["a"]["name"], p["b"]["name"]) for p in api(smiths)["person_pairs"]}
+        assert names[("p-jan-1", "p-jan-2")] == ("Jan Smit (1650–1700)", "Jan Smit (1672–?)")
+        soup = BeautifulSoup(smiths.get("/network/two-mode").text, "lxml")
+        links = {a.get_text(strip=True) for a in soup.select("#person-pairs a.pair-link")}
+        assert "Jan Smit (1650–1700) and Jan Smit (1672–?)" in links
+        assert "Kee Smit" in {a.get_text(strip=True) for a in soup.select("#person-degrees a")}

@@ -11,6 +11,7 @@ small loops on the outside of their node.
 from __future__ import annotations
 
 import math
+import re
 from collections import defaultdict
 from dataclasses import dataclass
 
@@ -24,6 +25,9 @@ PALETTE = ("#1f5fa8", "#c4511f", "#0f8a6a", "#a3418f", "#9a6c00", "#3f93c9", "#6
 DASHES = ("", "9 4", "2 3", "12 3 2 3", "5 5", "1 4 6 4")
 LABEL_LENGTH = 22
 PARALLEL_GAP = 22.0  # how far apart parallel kinds between one pair bend
+EGO_CLEARANCE = 34.0  # how far beyond the ego's mark a tie between two alters passes (its label sits below it)
+CROWDED = 60  # persons drawn above which a drawing counts as crowded
+FAR_WIDTH = 0.6  # share of the width of a tie between alters in a crowded drawing
 WIDTH_MEANS = {
     "documents": "documents attesting the tie (a copy and its original count once)",
     "attestations": "attestations of the tie",
@@ -122,6 +126,8 @@ class DrawnEdge:
     """Hover text: the pair, the kind and the counts."""
     co_membership: bool = False
     """True for a tie by shared groups, which opens the ties page under mode=co-membership."""
+    far: bool = False
+    """True for a tie between two alters (neither end is the ego): drawn fainter in a crowded drawing."""
 
 
 @dataclass(frozen=True)
@@ -142,6 +148,9 @@ class Drawing:
     """The relation kinds present, in the order of the legend."""
     width_means: str
     """What the width of a line shows, in words."""
+    crowded: bool = False
+    """True for a drawing of more than CROWDED persons: ties between alters are drawn fainter and thinner,
+    and the page gives the drawing the whole width."""
 
 
 def kind_styles(kinds: list[KindLabel], *, directed_view: bool = True) -> dict[str, KindStyle]:
@@ -161,9 +170,35 @@ def kind_styles(kinds: list[KindLabel], *, directed_view: bool = True) -> dict[s
 
 
 def short_label(name: str, length: int = LABEL_LENGTH) -> str:
-    """Return ``name`` cut to ``length`` characters with an ellipsis, for a label beside a mark."""
+    """Return ``name`` cut to ``length`` characters with an ellipsis, for a label beside a mark.
+
+    A name told apart from another by its life dates ("Pieter Schuttelaer (1650-09-30–1708-05-09)",
+    see ``network_labels``) keeps what tells it apart: the years, and the key when there is one;
+    the name itself is cut first.
+
+    >>> short_label("Pieter Schuttelaer (1650-09-30–1708-05-09)")
+    'Pieter Sc… (1650–1708)'
+    >>> short_label("Jan Smit (?–?, p-jan-2)", 16)
+    'Jan… (?–?, p-jan-2)'
+    >>> short_label("Cornelia Wyntjes van der Hoeven")
+    'Cornelia Wyntjes van…'
+    """
     name = " ".join(name.split())
-    return name if len(name) <= length else name[: length - 1].rstrip() + "…"
+    if len(name) <= length:
+        return name
+    told_apart = _TOLD_APART.fullmatch(name)
+    if told_apart:
+        life, _, key = told_apart.group(2).partition(", ")
+        years = "–".join((re.search(r"\d{4}", part) or re.search(r"\?", part) or re.search(r".+", part or "?")).group(0)
+                         for part in life.split("–"))
+        suffix = f" ({years}{', ' + key if key else ''})"
+        room = max(length - len(suffix) - 1, 3)
+        main = told_apart.group(1)
+        return (main if len(main) <= room + 1 else main[:room].rstrip() + "…") + suffix
+    return name[: length - 1].rstrip() + "…"
+
+
+_TOLD_APART = re.compile(r"(.+?) \(([^()]*[\d?][^()]*)\)")
 
 
 def ego_drawing(network: EgoNetwork, kinds: list[KindLabel], *, weight: str = "documents", direction: str = "recorded") -> Drawing:
@@ -187,16 +222,21 @@ def ego_drawing(network: EgoNetwork, kinds: list[KindLabel], *, weight: str = "d
         pairs[(edge.source, edge.target) if edge.source <= edge.target else (edge.target, edge.source)].append(edge)
     order = {key: i for i, key in enumerate(styles)}
     widths: dict[float, float] = {}  # a hub's thousands of ties have a few dozen weights
+    crowded = len(network.nodes) > CROWDED
+    centre = places[network.ego]
     for (a, b), group in sorted(pairs.items()):
         if len(group) > 1:
             group.sort(key=lambda e: (e.co_membership, order.get(e.kind, 0), e.source))
         middle = (len(group) - 1) / 2
+        far = network.ego not in (a, b)
+        # a tie between two alters goes round the ego's mark and label rather than across its own ties
+        detour = _detour(places[a], places[b], centre, sizes[network.ego] + EGO_CLEARANCE, len(group)) if far and a != b else 0.0
         for i, edge in enumerate(group):
             style = CO_MEMBERSHIP_STYLE if edge.co_membership else styles[edge.kind]
             if a == b:
                 path = _loop_path(places[a], sizes[a], i)
             else:
-                bend = (i - middle) * PARALLEL_GAP
+                bend = (i - middle) * PARALLEL_GAP + detour
                 path = _tie_path(places[edge.source], places[edge.target], sizes[edge.source], sizes[edge.target],
                                  bend if edge.source == a else -bend, arrow=style.directed)  # fmt: skip
             width = widths.get(edge.weight)
@@ -204,8 +244,8 @@ def ego_drawing(network: EgoNetwork, kinds: list[KindLabel], *, weight: str = "d
                 width = widths[edge.weight] = _width(edge.weight, weight)
             edges.append(DrawnEdge(
                 source=edge.source, target=edge.target, kind=edge.kind, path=path, colour=style.colour, dash=style.dash,
-                width=width, marker=style.marker if edge.directed else "",
-                title=_edge_title(edge, names), co_membership=edge.co_membership,
+                width=round(width * FAR_WIDTH, 2) if far and crowded else width, marker=style.marker if edge.directed else "",
+                title=_edge_title(edge, names), co_membership=edge.co_membership, far=far,
             ))  # fmt: skip
     present = {edge.kind for edge in network.edges if not edge.co_membership}
     legend = [s for k, s in styles.items() if k in present]
@@ -213,7 +253,8 @@ def ego_drawing(network: EgoNetwork, kinds: list[KindLabel], *, weight: str = "d
     if any(edge.co_membership for edge in network.edges):
         legend.append(CO_MEMBERSHIP_STYLE)
         width_means += "; for shared groups, their weight (the slice's weighting)"
-    return Drawing(width=WIDTH, height=HEIGHT, nodes=nodes, edges=edges, kinds=legend, width_means=width_means)
+    return Drawing(width=WIDTH, height=HEIGHT, nodes=nodes, edges=edges, kinds=legend, width_means=width_means,
+                   crowded=crowded)
 
 
 # --- helpers -------------------------------------------------------------------------------
@@ -298,6 +339,29 @@ def _tie_path(p: Placement, q: Placement, rp: float, rq: float, bend: float, *, 
     x1, y1 = _towards(p.x, p.y, mx, my, rp + 1)
     x2, y2 = _towards(q.x, q.y, mx, my, rq + gap)
     return f"M{x1:.1f},{y1:.1f} Q{mx:.1f},{my:.1f} {x2:.1f},{y2:.1f}"
+
+
+def _detour(p: Placement, q: Placement, centre: Placement, clearance: float, parallel: int) -> float:
+    """Return the bend (as ``_tie_path`` takes it, from ``p`` to ``q``) that keeps a line ``clearance`` from the centre.
+
+    A quadratic curve's midpoint lies halfway between the chord's midpoint and its control
+    point, so a bend of b moves the middle of the line b across it. A line that passes
+    nearer the centre than ``clearance`` (two alters on opposite sides of the ego) is moved
+    away on the side it already leans to (a line through the centre itself: to the left of
+    its direction, a fixed rule so that the picture does not change), the outermost of
+    ``parallel`` lines included. A line clear of the centre keeps its course (0).
+    """
+    dx, dy = q.x - p.x, q.y - p.y
+    length = math.hypot(dx, dy) or 1.0
+    nx_, ny_ = -dy / length, dx / length  # the side the control point moves to for a positive bend
+    off = ((p.x + q.x) / 2 - centre.x) * nx_ + ((p.y + q.y) / 2 - centre.y) * ny_
+    # the ends must lie beyond the centre along the line for it to pass the centre at all
+    along = ((centre.x - p.x) * dx + (centre.y - p.y) * dy) / (length * length)
+    if not 0.0 < along < 1.0 or abs(off) >= clearance + (parallel - 1) / 2 * PARALLEL_GAP:
+        return 0.0
+    spread = (parallel - 1) / 2 * PARALLEL_GAP
+    side = 1.0 if off >= 0 else -1.0
+    return side * (clearance + spread) - off
 
 
 def _towards(x: float, y: float, tx: float, ty: float, distance: float) -> tuple[float, float]:

@@ -12,9 +12,10 @@ names with markup stay text).
 from __future__ import annotations
 
 import math
+import textwrap
 from collections import defaultdict
 from collections.abc import Mapping, Sequence
-from dataclasses import dataclass, replace
+from dataclasses import dataclass, field, replace
 from typing import Protocol
 
 from sqlalchemy.orm import Session
@@ -40,6 +41,9 @@ WIDTH, HEIGHT = 1240, 1000  # the canvas; the view box is cropped to what is dra
 MEMBER_RING = (120.0, 235.0)  # radius of the members' ring: 9 per member, within these bounds
 GROUP_RING = 140.0  # how far outside the members' ring the other groups sit
 MARGIN = 12.0
+LONG_NAME_RING = 150.0  # the smallest members' ring around a centre group of a long name
+RING_CLEARANCE = 16.0  # room kept free inside the members' ring for their marks
+LINE_HEIGHT = 1.15  # of the font size, between the lines of the centre's label
 MAX_MEMBERS = 60
 MAX_GROUPS = 24
 
@@ -97,6 +101,8 @@ class GroupDrawnNode:
     """Size of the label's letters."""
     title: str
     """Hover text."""
+    lines: list[str] = field(default_factory=list)
+    """The label broken into lines that fit inside the members' ring (the centre group only; else empty)."""
 
 
 @dataclass(frozen=True)
@@ -219,6 +225,8 @@ def group_neighbourhood(
 
     cx, cy = WIDTH / 2, HEIGHT / 2
     radius = min(max(9.0 * len(ring), MEMBER_RING[0]), MEMBER_RING[1])
+    if len(groups[centre].name) > 18:  # room inside the ring for a long name of the centre group on up to 3 lines
+        radius = max(radius, LONG_NAME_RING)
     angles = {p: -math.pi / 2 + 2 * math.pi * i / len(ring) for i, p in enumerate(ring)}
     weights = {g: {p: 1.0 for p in belongs[g] if p in angles} for g in drawn_groups}
     group_angles = _outer_angles(drawn_groups, angles, weights) if drawn_groups and ring else {}
@@ -257,7 +265,9 @@ def group_neighbourhood(
     if members:
         centre_label = groups[centre]
         title = f"{centre_label.name}{_kind(centre_label.kind)}: {_count(len(members), 'member')} in the slice"
-        nodes.append(_mark(centre_label, "group", cx, cy, None, 24.0, 1, title=title, centre=True, length=34))
+        mark = _mark(centre_label, "group", cx, cy, None, 24.0, 1, title=title, centre=True, length=34)
+        nodes.append(replace(mark, lines=_centre_lines(centre_label.name, radius - RING_CLEARANCE, mark.label_y - cy,
+                                                       mark.font_size)))
         place[("g", centre)] = (cx, cy, 24.0)
 
     edges = []
@@ -319,6 +329,30 @@ def _mark(label, mode: str, x: float, y: float, angle: float | None, size: float
     )  # fmt: skip
 
 
+def _centre_lines(name: str, inner: float, first: float, font_size: float, most: int = 3) -> list[str]:
+    """Break the centre group's name into as few lines (at most ``most``) as fit inside the members' ring.
+
+    The lines start ``first`` below the centre, each one ``LINE_HEIGHT`` font sizes lower; the
+    disc of radius ``inner`` around the centre is free of the members' marks (their labels are
+    outside the ring), so every line is kept within that disc at the lowest line's height. A name
+    longer than the most lines hold ends in "…". Letters are taken as 0.6 of the font size wide,
+    as in ``_view_box``.
+    """
+    name = " ".join(name.split())
+    best: list[str] = [name]
+    room = -1
+    for count in range(1, most + 1):
+        lowest = first + (count - 1) * LINE_HEIGHT * font_size + font_size / 2
+        width = max(int(2 * math.sqrt(max(inner * inner - lowest * lowest, 0.0)) / (0.6 * font_size)), 6)
+        lines = textwrap.wrap(name, width=width, break_long_words=True) or [name]
+        if len(lines) <= count:
+            return lines
+        if count * width > room:
+            room = count * width
+            best = [*lines[: count - 1], short_label(" ".join(lines[count - 1 :]), width)]
+    return best
+
+
 def _view_box(nodes: list[GroupDrawnNode]) -> tuple[float, float, float, float]:
     """Return left, top, width and height of the box around the marks and their labels.
 
@@ -330,7 +364,7 @@ def _view_box(nodes: list[GroupDrawnNode]) -> tuple[float, float, float, float]:
     for n in nodes:
         xs += [n.x - n.size, n.x + n.size]
         ys += [n.y - n.size, n.y + n.size]
-        length = 0.6 * n.font_size * len(n.label)
+        length = 0.6 * n.font_size * max((len(line) for line in n.lines), default=len(n.label))
         a = math.radians(n.rotate)
         along = {"start": (0.0, length), "end": (-length, 0.0), "middle": (-length / 2, length / 2)}[n.anchor]
         for d in along:

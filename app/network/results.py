@@ -37,6 +37,7 @@ from app.network.measures import MEASURES, cliques, communities, components, com
 from app.network.measures.communities import STABILITY_RUNS
 from app.network.measures.cuts import TieRecord
 from app.network.measures.results import MeasureError
+from app.network.measures.summary import collection_warning
 from app.network.measures.arcs import ArcGraph
 from app.network.same_as import merge_nodes, same_as_mapping
 from app.network.slice import ResolvedSlice, Slice, collection_counts, node_set_of, resolve_slice
@@ -322,6 +323,7 @@ def _compute(session: Session, graph: SliceGraph, *, measure: str, options: dict
         payload = _communities(graph.arcs, slice_, key_of, options)
     else:
         payload = _centrality(graph.arcs, measure, slice_, key_of, options)
+        payload["collection_note"] = _collection_note(session, graph)
     return _with_mode(payload, slice_)
 
 
@@ -355,27 +357,8 @@ def _centrality(G: nx.Graph, measure: str, slice_: Slice, key_of: dict, options:
 
 def _summary(session: Session, graph: SliceGraph, *, exact_paths: bool | None = None) -> dict[str, Any]:
     slice_ = graph.slice
-    if graph.relations is not None:  # the arrays: the relations behind the ties and their collections
-        relations, ties = graph.relations, graph.ties
-        behind = np.zeros(len(relations), dtype=bool)
-        behind[ties.entry_relation] = True
-        counted = behind[relations.collection_relation]
-        per_collection: Counter = Counter()
-        for collection, count in zip(relations.collection[counted].tolist(), relations.collection_attestations[counted].tolist()):
-            per_collection[None if collection < 0 else collection] += count
-        attestations = int(relations.attestations[behind].sum())
-        measured: nx.Graph | ArcGraph = graph.arcs
-    else:
-        G = graph.G
-        in_graph = {r for _, _, ids in G.edges(data="relation_ids") for r in ids or ()}
-        per_collection = Counter(collection_counts(session, graph.resolved, in_graph))
-        memberships = G.graph.get("membership_ids", [])  # mode=co-membership or both: their evidence counts too
-        per_collection.update(membership_collection_counts(session, graph.resolved, memberships))
-        attestations = sum(graph.attestations[r] for r in in_graph) + G.graph.get("membership_attestations", 0)
-        measured = G
-    printed = per_collection.pop(None, 0)
-    names = list_collection_names(session=session, ids=list(per_collection))
-    counts = {names[c]: count for c, count in per_collection.items()}
+    counts, printed, attestations = _collection_shares(session, graph)
+    measured: nx.Graph | ArcGraph = graph.arcs if graph.relations is not None else graph.G
     summary = summarize(measured, node_set=slice_.nodes, collection_counts=counts, exact_paths=exact_paths)
     payload = asdict(summary)
     payload["attestations"] = attestations
@@ -386,6 +369,35 @@ def _summary(session: Session, graph: SliceGraph, *, exact_paths: bool | None = 
     payload["printed_attestations"] = printed
     payload["n"] = len(measured)
     return _finite(payload)
+
+
+def _collection_shares(session: Session, graph: SliceGraph) -> tuple[dict[str, int], int, int]:
+    """Return the attestations behind the slice's ties per collection (by name), those from printed
+    sources, and their total (with a co-membership slice's group evidence)."""
+    if graph.relations is not None:  # the arrays: the relations behind the ties and their collections
+        relations, ties = graph.relations, graph.ties
+        behind = np.zeros(len(relations), dtype=bool)
+        behind[ties.entry_relation] = True
+        counted = behind[relations.collection_relation]
+        per_collection: Counter = Counter()
+        for collection, count in zip(relations.collection[counted].tolist(), relations.collection_attestations[counted].tolist()):
+            per_collection[None if collection < 0 else collection] += count
+        attestations = int(relations.attestations[behind].sum())
+    else:
+        G = graph.G
+        in_graph = {r for _, _, ids in G.edges(data="relation_ids") for r in ids or ()}
+        per_collection = Counter(collection_counts(session, graph.resolved, in_graph))
+        memberships = G.graph.get("membership_ids", [])  # mode=co-membership or both: their evidence counts too
+        per_collection.update(membership_collection_counts(session, graph.resolved, memberships))
+        attestations = sum(graph.attestations[r] for r in in_graph) + G.graph.get("membership_attestations", 0)
+    printed = per_collection.pop(None, 0)
+    names = list_collection_names(session=session, ids=list(per_collection))
+    return {names[c]: count for c, count in per_collection.items()}, printed, attestations
+
+
+def _collection_note(session: Session, graph: SliceGraph) -> str | None:
+    """Return the summary's warning when one collection holds most of the slice's evidence, else None."""
+    return collection_warning(_collection_shares(session, graph)[0])
 
 
 def _components(G: nx.Graph, slice_: Slice, key_of: dict) -> dict[str, Any]:

@@ -18,6 +18,7 @@ from sqlalchemy.orm import Session
 from app.models import AuditEntry, DataVersion
 
 __all__ = [
+    "AUDITED_TABLES",
     "AuditList",
     "AuditRow",
     "REDACTED",
@@ -29,6 +30,9 @@ __all__ = [
 ]
 
 REDACTED = "[redacted]"
+AUDITED_TABLES = ("person", "person_link", "source", "repository", "collection", "attestation", "relation",
+                  "membership", "group", "user", "audit_entry")
+"""The tables the entries name (an import is an entry of its own, without a table)."""
 PAGE_SIZE = 100
 
 

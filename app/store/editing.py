@@ -45,7 +45,7 @@ from app.models import (
     Repository,
     Source,
 )
-from app.names import fold
+from app.names import fold, key_from_name
 from app.store.audit import record_change
 
 __all__ = [
@@ -66,6 +66,7 @@ __all__ = [
     "create_attestation",
     "create_membership",
     "create_person",
+    "suggest_person_key",
     "create_relation",
     "create_source",
     "delete_attestation",
@@ -304,16 +305,43 @@ def _set_names_and_identifiers(session: Session, person: Person, variants: str, 
     session.flush()
 
 
+def suggest_person_key(*, session: Session, name: str, start: str | None = None) -> str:
+    """Return a free person key made from ``name`` (or from ``start``), with "-2", "-3"... when it is taken.
+
+    Free means held by no person and by no merged person's old key (it still resolves).
+    """
+    base = (start if start is not None else key_from_name(name, room=4))[:96]
+    number = 1 if start is None else 2
+    candidate = base if start is None else f"{base}-2"
+    while _key_taken_by(session, candidate) is not None:
+        number += 1
+        candidate = f"{base}-{number}"
+    return candidate
+
+
+def _key_taken_by(session: Session, key: str) -> str | None:
+    """Return who holds ``key`` in words ("Griet Molenaar", "a person merged into p-x"), or None when it is free."""
+    held = session.execute(select(Person.name).where(Person.key == key)).scalar()
+    if held is not None:
+        return held
+    alias = session.execute(select(Person.key).join(PersonAlias, PersonAlias.person_id == Person.id)
+                            .where(PersonAlias.key == key)).scalar()
+    return None if alias is None else f"a person merged into {alias} (its old key still leads there)"
+
+
 def create_person(*, session: Session, actor: Actor, key: str, name: str, sort_name: str = "", kind: str = "individual",
                   unidentified: bool = False, living: bool = False, variants: str = "", born: str = "", died: str = "",
                   calendar: str = "", identifiers: str = "", note: str = "") -> str:
     """Create a person with their spellings and identifiers; return the key."""
     problems: dict[str, str] = {}
+    if not (key or "").strip() and (name or "").strip():
+        key = suggest_person_key(session=session, name=name)  # a blank key is made from the name
     key = _check_key(problems, "key", key)
-    if key and "key" not in problems and (
-        session.scalar(select(Person.id).where(Person.key == key)) or session.scalar(select(PersonAlias.id).where(PersonAlias.key == key))
-    ):
-        problems["key"] = f"{key!r} is taken by another person (or is the old key of a merged one)"
+    if key and "key" not in problems:
+        taken = _key_taken_by(session, key)
+        if taken is not None:
+            problems["key"] = (f"{key!r} is taken: it is already the key of {taken}; choose another, for example "
+                               f"{suggest_person_key(session=session, name=name, start=key)!r}")
     values, pairs = _person_fields(session, problems, None, name=name, sort_name=sort_name, kind=kind,
                                    unidentified=unidentified, living=living, born=born, died=died,
                                    calendar=calendar, note=note, identifiers=identifiers)
@@ -322,7 +350,7 @@ def create_person(*, session: Session, actor: Actor, key: str, name: str, sort_n
     session.add(person)
     session.flush()
     _set_names_and_identifiers(session, person, variants, pairs)
-    _record(session, actor, "create", "person", key, None, person_snapshot(session, person), f"created person {key}")
+    _record(session, actor, "create", "person", key, None, person_snapshot(session, person), f"created person {person.name} ({key})")
     return key
 
 
@@ -346,7 +374,7 @@ def update_person(*, session: Session, actor: Actor, key: str, version: str | in
     session.flush()
     _set_names_and_identifiers(session, person, variants, pairs)
     after = person_snapshot(session, person)
-    _record(session, actor, "update", "person", key, before, after, f"edited person {key}")
+    _record(session, actor, "update", "person", key, before, after, f"edited person {person.name} ({key})")
     return person.version
 
 

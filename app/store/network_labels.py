@@ -14,6 +14,7 @@ from dataclasses import dataclass
 from sqlalchemy import select
 from sqlalchemy.orm import Session, aliased
 
+from app.dates import season_words
 from app.models import Collection, Person, PersonAlias, RelationKind, Repository
 
 __all__ = [
@@ -149,13 +150,18 @@ def _told_apart(rows: dict) -> dict:
     for ident, row in rows.items():
         name = row.name
         if names[row.name] > 1:
-            name = f"{row.name} ({row.born_text or '?'}–{row.died_text or '?'})"
+            name = f"{row.name} ({_life(row.born_text)}–{_life(row.died_text)})"
         labels[ident] = (name, row)
     shown = Counter(name for name, _row in labels.values())
     return {
         ident: PersonLabel(row.id, row.key, f"{name[:-1]}, {row.key})" if shown[name] > 1 else name, row.kind, row.unidentified)
         for ident, (name, row) in labels.items()
     }
+
+
+def _life(text: str | None) -> str:
+    """A life date as a label shows it: "?" when unknown, an EDTF season in words ("autumn 1705")."""
+    return (season_words(text) or text) if text else "?"
 
 
 def list_collection_names(*, session: Session, ids: Iterable[int]) -> dict[int, str]:

@@ -15,7 +15,8 @@ from fastapi.responses import HTMLResponse, RedirectResponse, Response
 
 from app.auth import AdminActor, CsrfChecked, EditorActor
 from app.dates import DateError, interval_or_none
-from app.store.audit import AuditList, AuditRow, get_change, list_changes, redact_change
+from app.store.audit import AUDITED_TABLES, AuditList, AuditRow, get_change, list_changes, redact_change
+from app.store.network_labels import list_person_labels_by_key
 from app.views.common import BadParameter, SessionDep, page_number, render, urls_for
 from app.views.editing import form_values, save
 
@@ -32,6 +33,10 @@ class AuditPage:
 
     changes: AuditList
     """The entries of this page, how many match, and the filters."""
+    person_names: dict[str, str]
+    """The current name of each person an entry of this page is about, by key (a deleted or merged key is left out)."""
+    tables: list[str]
+    """The tables an entry can be about, for the filter."""
 
 
 @dataclass(frozen=True)
@@ -65,7 +70,9 @@ def audit_view(*, session: SessionDep, user: str | None = None, table: str | Non
                            page=number)
     if number > changes.pages:
         raise BadParameter("page", page, f"a whole number from 1 to {changes.pages}")
-    return AuditPage(changes)
+    keys = [row.key for row in changes.rows if row.table == "person" and row.key]
+    names = {key: label.name for key, label in list_person_labels_by_key(session=session, keys=keys).items()}
+    return AuditPage(changes, names, list(AUDITED_TABLES))
 
 
 def entry_view(*, session: SessionDep, entry_id: int, problem: str | None = None) -> AuditEntryPage:

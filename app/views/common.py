@@ -19,11 +19,13 @@ import orjson
 from fastapi import Depends, HTTPException, Request
 from fastapi.responses import HTMLResponse, Response
 from jinja2 import Environment, FileSystemLoader, StrictUndefined
+from markupsafe import Markup, escape
 from sqlalchemy.exc import SQLAlchemyError
 from sqlalchemy.orm import Session
 
 from app.auth import csrf_token, current_actor
 from app.config import Settings
+from app.dates import season_words
 from app.network.slice import Slice, SliceError
 from app.store.summary import get_data_version
 
@@ -307,6 +309,14 @@ def _share(part: int, whole: int) -> int:
     return round(100 * part / whole) if whole else 0
 
 
+def _season_note(text: str | None) -> Markup:
+    """Return, for a date as written with EDTF season codes, those in words to show beside it: " (summer 1662)"."""
+    words = season_words(str(text)) if text else None
+    if words is None:
+        return Markup("")
+    return Markup(' <span class="date-words">(') + escape(words) + Markup(")</span>")
+
+
 templates = Environment(
     loader=FileSystemLoader(TEMPLATES_DIR),
     autoescape=True,
@@ -316,6 +326,7 @@ templates = Environment(
 )
 templates.filters["count"] = _count
 templates.filters["share"] = _share
+templates.filters["season_note"] = _season_note
 templates.filters["pretty_json"] = lambda value: json.dumps(value, indent=2, ensure_ascii=False, sort_keys=True, default=str)
 
 

@@ -43,6 +43,8 @@ class FormField:
     hint: str | None = None
     options: list[tuple[str, str]] = field(default_factory=list)  # (value, label) of a select
     required: bool = False
+    suggests: str | None = None  # a URL that answers a new suggestion for the key field while this one is typed in
+    suggested: str | None = None  # the key last suggested, kept to tell it from a key typed by hand
 
 
 @dataclass(frozen=True)
@@ -102,10 +104,10 @@ def _f(values: dict[str, Any], problems: dict[str, str], name: str, label: str, 
 
 def person_fields(values: dict[str, Any], problems: dict[str, str], *, new: bool) -> list[Fieldset]:
     """The fields of the person form."""
+    name = _f(values, problems, "name", "name", required=True, hint="the display name",
+              suggests="/new/person/key" if new else None)
     fields = [
-        _f(values, problems, "key", "key", required=True, hint="letters, digits and ._:- ; it never changes")
-        if new else _f(values, problems, "version", "version", "hidden"),
-        _f(values, problems, "name", "name", required=True, hint="the display name"),
+        name, key_field(values, problems) if new else _f(values, problems, "version", "version", "hidden"),
         _f(values, problems, "sort_name", "sorted as", hint="e.g. Brenner, Jost"),
         _f(values, problems, "kind", "kind", "select", options=[(k, k) for k in PERSON_KINDS], default="individual"),
         _f(values, problems, "unidentified", "not identified (known only by a description)", "checkbox"),
@@ -118,6 +120,16 @@ def person_fields(values: dict[str, Any], problems: dict[str, str], *, new: bool
         _f(values, problems, "note", "note", "textarea"),
     ]
     return [Fieldset(None, fields)]
+
+
+KEY_HINT = ("letters, digits and ._:- ; it never changes. Made from the name as you type it; "
+            "change it as you like, or leave it blank to have it made on saving.")
+
+
+def key_field(values: dict[str, Any], problems: dict[str, str], suggested: str | None = None) -> FormField:
+    """The key box of a new person: what was typed, or the key suggested from the name."""
+    return _f(values, problems, "key", "key", hint=KEY_HINT, suggested=suggested if suggested is not None
+              else str(values.get("suggested") or ""))
 
 
 def source_fields(values: dict[str, Any], problems: dict[str, str], *, new: bool, repositories: list[tuple[str, str]],
@@ -274,6 +286,34 @@ def _person_form_values(request: Request, session: SessionDep, key: str) -> dict
     if values is None:
         raise HTTPException(404, f"no person with key '{key}'")
     return values
+
+
+_KEY_SUGGESTION = ("The key box of the new person form, with a key made from `name` (folded, words joined by hyphens, "
+                   "\"-2\", \"-3\"... when it is taken). A `key` typed by hand (one that is not the last `suggested`) "
+                   "is kept as it is. htmx asks for it while the name is typed.")
+
+
+def key_suggestion(session: SessionDep, name: str, key: str, suggested: str) -> FormField:
+    """Return the key box: a new suggestion when the box is blank or still holds the last one, else the typed key."""
+    typed = key.strip()
+    if typed and typed != suggested.strip():
+        return key_field({"key": key}, {}, suggested)
+    fresh = editing.suggest_person_key(session=session, name=name) if name.strip() else ""
+    return key_field({"key": fresh}, {}, fresh)
+
+
+@router.get("/new/person/key", response_class=HTMLResponse, summary="A key suggested from a name (form piece)",
+            description=_KEY_SUGGESTION + " Editors only. JSON twin: `/api/new/person/key`.")
+def key_suggestion_piece(request: Request, session: SessionDep, _: EditorActor, name: str = "", key: str = "",
+                         suggested: str = "") -> Response:
+    return render(request, key_suggestion(session, name, key, suggested), template="_key_field.html")
+
+
+@router.get("/api/new/person/key", response_model=FormField, summary="A key suggested from a name (JSON)",
+            description=_KEY_SUGGESTION + " Editors only. The form piece: `/new/person/key`.")
+def key_suggestion_api(request: Request, session: SessionDep, _: EditorActor, name: str = "", key: str = "",
+                       suggested: str = "") -> Response:
+    return render(request, key_suggestion(session, name, key, suggested), template="_key_field.html")
 
 
 _pair("/new/person", "New person form", _PERSON_FORM,

@@ -588,6 +588,7 @@ def _context(session: Session, view: str, slice_: Slice, outcome: Outcome, param
         empty_note=EMPTY_NOTE if n == 0 else None,
         small_note=(small_slice_warning(n, outcome.payload["ties"])
                     if n and view != "summary" and "ties" in outcome.payload else None),  # the summary lists its own warnings
+        collection_note=outcome.payload.get("collection_note"),
         mode_note=mode_conventions(slice_),
         freshness=_freshness(outcome), parameters=parameters, tables=tables, controls=slice_controls(session=session, slice=slice_),
     )  # fmt: skip

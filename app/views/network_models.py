@@ -92,6 +92,8 @@ class PageContext:
     """A sentence when the slice holds no person, else None."""
     small_note: str | None
     """A warning when the slice has so few persons or ties that its measures say little (else None)."""
+    collection_note: str | None
+    """The summary's warning when one collection holds most of the slice's evidence (centrality; else None)."""
     mode_note: str | None
     """Under mode=co-membership or both: what the ties are, how weights combine, which node set (else None)."""
     freshness: Freshness

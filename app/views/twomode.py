@@ -4,6 +4,7 @@ incidence and projected matrices as CSV (``?format=csv&table=...``), all from on
 
 from __future__ import annotations
 
+from collections.abc import Iterable
 from dataclasses import dataclass
 
 import numpy as np
@@ -26,9 +27,11 @@ from app.network.twomode import (
     two_mode_summary,
 )
 from app.store.groups import GroupRef, group_refs
-from app.store.persons import PersonRef, person_refs
+from app.store.network_labels import list_person_labels
+from app.store.persons import PersonRef
 from app.views.common import BadParameter, SessionDep, SliceDep, page_number, render
 from app.views.redaction import redact_for
+from app.views.slicing import SliceControls, slice_controls
 from app.views.tables import Table, csv_response
 
 __all__ = ["PAGED", "TABLES", "TablePage", "TwoModePage", "two_mode_csv", "two_mode_view", "router"]
@@ -183,6 +186,8 @@ class TwoModePage:
     """The page numbers other than 1, as query parameters, kept by the links of the page."""
     drawing: TwoModeDrawing
     """Persons and groups drawn in two columns, memberships between (capped on large data)."""
+    controls: SliceControls
+    """The slice form shared by the network pages."""
 
 
 def _weighting(value: str | None) -> str:
@@ -270,7 +275,7 @@ def two_mode_view(
         return _page_of(parameter, value, total, max(total, 1) if all_rows else ROWS_PER_PAGE)
     evidence = _evidence(session, slice_)
     summary = two_mode_summary(bipartite_graph(evidence, weight=slice_.weight))
-    people = person_refs(session=session, person_ids=summary.person_degree)
+    people = _person_refs(session, summary.person_degree)
     groups = group_refs(session=session, group_ids=summary.group_degree)
     by_name_p = lambda pid: (people[pid].name.casefold(), people[pid].key)  # noqa: E731
     by_name_g = lambda gid: (groups[gid].name.casefold(), groups[gid].key)  # noqa: E731
@@ -315,7 +320,15 @@ def two_mode_view(
         person_pairs_total=len(all_person_pairs), paging=paging,
         page_parameters=[(t.parameter, str(t.page)) for t in paging.values() if t.page != 1],
         drawing=two_mode_drawing(evidence, persons=people, groups=groups),
+        controls=slice_controls(session=session, slice=slice_),
     )  # fmt: skip
+
+
+def _person_refs(session: Session, person_ids: Iterable[int]) -> dict[int, PersonRef]:
+    """Refs of the persons, persons of one name told apart by life dates or key (as in the measure tables)."""
+    labels = list_person_labels(session=session, ids=list(person_ids))
+    return {pid: PersonRef(key=label.key, name=label.name, kind=label.kind, unidentified=label.unidentified)
+            for pid, label in labels.items()}
 
 
 def two_mode_csv(*, session: Session, slice_: Slice, table: str | None, weighting: str | None = None) -> tuple[str, str]:
@@ -339,7 +352,7 @@ def two_mode_csv(*, session: Session, slice_: Slice, table: str | None, weightin
         return _table_text(data), f"two-mode-{table}.csv"
     evidence = _evidence(session, slice_)
     inc = incidence(evidence)
-    people = {p: (r.key, r.name) for p, r in person_refs(session=session, person_ids=inc.persons).items()}
+    people = {p: (r.key, r.name) for p, r in _person_refs(session, inc.persons).items()}
     groups = {g: (r.key, r.name) for g, r in group_refs(session=session, group_ids=inc.groups).items()}
     if table == "incidence":
         text = incidence_csv(inc, person_labels=people, group_labels=groups)

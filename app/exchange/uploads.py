@@ -315,15 +315,20 @@ def stored_person_keys(database: Database) -> set[str]:
         return set(session.scalars(select(Person.key)))
 
 
+def sheet_person_keys(reading: Reading) -> set[str]:
+    """Person keys of the upload's own persons sheet, to tell an edge list's persons from documents."""
+    keys: set[str] = set()
+    for sheet in reading.sheets:
+        if sheet.name in ("persons.csv", "persons") and "key" in sheet.header:
+            at = sheet.header.index("key")
+            keys.update(record[at] for _, record in sheet.records() if len(record) > at)
+    return keys
+
+
 def mapping_step(upload: Upload, reading: Reading, database: Database) -> list[SheetMapping]:
     """Return the suggestions for every sheet (the upload's own plans and a mapping file win)."""
-    person_keys = stored_person_keys(database)
-    for sheet in reading.sheets:
-        if sheet.name in ("persons.csv", "persons"):
-            person_keys.update(record[sheet.header.index("key")] for _, record in sheet.records()
-                               if "key" in sheet.header and len(record) > sheet.header.index("key"))
     plans = {**reading.plans, **(upload.plans or {})}
-    return suggest_mappings(reading.sheets, person_keys, plans)
+    return suggest_mappings(reading.sheets, stored_person_keys(database) | sheet_person_keys(reading), plans)
 
 
 def needs_mapping(upload: Upload, mappings: list[SheetMapping]) -> bool:

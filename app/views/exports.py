@@ -60,6 +60,14 @@ class ExportPage:
     """The downloads of the slice."""
     snapshot_action: str
     """Where the snapshot button posts to (with the slice)."""
+    drawing_svg: str
+    """Where the drawing form sends for an ego drawing as SVG (person and radius as form fields)."""
+    drawing_png: str
+    """The same, as PNG."""
+    slice_fields: list[tuple[str, str]]
+    """The slice as (name, value) pairs, carried by the drawing form."""
+    person: str | None = None
+    """The person whose ego drawing the form offers first (the page's ``person`` parameter)."""
 
 
 def export_links(request: Request, slice_: Slice) -> list[ExportLink]:
@@ -89,9 +97,15 @@ def _version(request: Request, session: Session) -> DatasetVersion:
     return cache[current]
 
 
-def export_view(request: Request, session: Session, slice_: Slice) -> ExportPage:
+def export_view(request: Request, session: Session, slice_: Slice, person: str | None = None) -> ExportPage:
+    urls = urls_for(request)
     return ExportPage(slice=slice_, slice_summary=slice_.describe(), version=_version(request, session),
-                      files=export_links(request, slice_), snapshot_action=urls_for(request).export("snapshot", slice_))
+                      files=export_links(request, slice_), snapshot_action=urls.export("snapshot", slice_),
+                      drawing_svg=urls.export("ego.svg"), drawing_png=urls.export("ego.png"),
+                      slice_fields=slice_.to_query(), person=(person or "").strip() or None)
+
+
+_PERSON = Query(None, description="A person key: the drawing form offers this person's ego drawing.")
 
 
 _SLICE = " The slice is given by the query string, as on every network page."
@@ -99,15 +113,16 @@ _SLICE = " The slice is given by the query string, as on every network page."
 
 @router.get("/export", response_class=HTMLResponse, summary="Exports and the dataset version (page)",
             description="The content hash and counts of the dataset (cite it as 'dataset version <hash>'), the files "
-                        "of the slice to download and the snapshot button." + _SLICE)
-def export_page(request: Request, session: SessionDep, slice_: SliceDep) -> Response:
-    return render(request, export_view(request, session, slice_), template="export.html")
+                        "of the slice to download, a form for a person's ego drawing as SVG or PNG, and the snapshot "
+                        "button." + _SLICE)
+def export_page(request: Request, session: SessionDep, slice_: SliceDep, person: str | None = _PERSON) -> Response:
+    return render(request, export_view(request, session, slice_, person), template="export.html")
 
 
 @router.get("/api/export", response_model=ExportPage, summary="Exports and the dataset version (JSON)",
             description="The JSON twin of `/export`: content hash, counts and the download links." + _SLICE)
-def export_api(request: Request, session: SessionDep, slice_: SliceDep) -> Response:
-    return render(request, export_view(request, session, slice_), template="export.html")
+def export_api(request: Request, session: SessionDep, slice_: SliceDep, person: str | None = _PERSON) -> Response:
+    return render(request, export_view(request, session, slice_, person), template="export.html")
 
 
 def _download(data: bytes | str, media_type: str, filename: str) -> Response:

@@ -63,9 +63,10 @@ for method, template, needed, path in [
     ("GET", "/export", READ, "/export"), ("GET", "/api/export", READ, "/api/export"),
     ("GET", "/export/edges.csv", READ, "/export/edges.csv"), ("GET", "/export/nodes.csv", READ, "/export/nodes.csv"),
     ("GET", "/export/matrix.csv", READ, "/export/matrix.csv"), ("GET", "/export/graphml", READ, "/export/graphml"),
-    ("GET", "/export/sources.json", READ, "/export/sources.json"), ("GET", "/export/workbook.zip", READ, "/export/workbook.zip"),
+    ("GET", "/export/sources.json", READ, "/export/sources.json"), ("GET", "/export/workbook.zip", EDIT, "/export/workbook.zip"),
     ("GET", "/export/ego.svg", READ, "/export/ego.svg?person=p-jost"), ("GET", "/export/ego.png", READ, "/export/ego.png?person=p-jost"),
-    ("POST", "/export/snapshot", READ, "/export/snapshot"),
+    # the whole workbook holds the world's restricted persons: for editors, while it holds any
+    ("POST", "/export/snapshot", EDIT, "/export/snapshot"),
     ("POST", "/audit/{entry_id}/redact", ADMIN, "/audit/1/redact"),
 ]:
     ROUTES[(method, template)] = (needed, path)

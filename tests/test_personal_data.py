@@ -65,6 +65,9 @@ PAGES = [
     "/network/two-mode?format=csv&table=incidence", "/network/two-mode?format=csv&table=person_projection",
     "/network/two-mode?format=csv&table=persons", "/persons/p-anna/measures", "/api/persons/p-anna/measures",
     "/ties/p-anna/p-jost?mode=co-membership",
+    # the files of the export page: a reader downloads the slice without the restricted persons' traces
+    "/export", "/api/export", "/export/graphml", "/export/nodes.csv", "/export/edges.csv", "/export/matrix.csv",
+    "/export/sources.json", "/export/ego.svg?person=p-anna", "/export/ego.svg?person=p-jost&radius=2",
 ]  # fmt: skip
 ABOUT_THEM = ["/persons/p-zorwald", "/api/persons/p-zorwald", "/persons/p-ysolde", "/persons/p-zorwald/ego",
               "/api/persons/p-zorwald/ego", "/persons/p-zorwald/ego.svg", "/ties/p-anna/p-zorwald",
@@ -165,3 +168,32 @@ def test_the_living_rule_follows_the_setting_and_the_date(world):
     assert rule_140.keys == {"p-zorwald", "p-ysolde", "p-oldtimer"}  # born 1890
     assert later.keys == {"p-zorwald"}  # in 2061 the one born in 1950 is 110
 
+
+
+def test_a_reader_downloads_the_slice_with_restricted_persons_as_numbered_nodes_and_not_the_whole_workbook(world):
+    import io
+
+    import networkx as nx
+    from lxml import etree
+
+    from tests.test_graphml import graphml_schema
+
+    database, reader, editor = world
+    mine = reader.get("/export/graphml?kind=letter").content
+    assert leaks(mine.decode()) == []
+    assert graphml_schema().validate(etree.fromstring(mine))  # still valid GraphML: one id per hidden person
+    G = nx.read_graphml(io.BytesIO(mine))
+    full = nx.read_graphml(io.BytesIO(editor.get("/export/graphml?kind=letter").content))
+    assert "p-zorwald" in full and "restricted-1" in G and "p-zorwald" not in G
+    assert G.nodes["restricted-1"]["name"] == "restricted person" and "born" not in G.nodes["restricted-1"]
+    # the same structure: as many persons and ties, the hidden person's ties kept (networkx isomorphism)
+    assert nx.is_isomorphic(G, full)
+    assert reader.get("/export/ego.svg?person=p-zorwald").status_code == 403  # a drawing about them
+
+    refused = reader.get("/export/workbook.zip")
+    assert refused.status_code == 403 and "restricted persons" in refused.text
+    page = reader.get("/export").text
+    token = page.split('name="csrf_token" value="', 1)[1].split('"', 1)[0]
+    assert reader.post("/export/snapshot", data={"csrf_token": token}).status_code == 403
+    whole = editor.get("/export/workbook.zip")
+    assert whole.status_code == 200 and b"PK" == whole.content[:2]

@@ -23,7 +23,8 @@ from app.network.slice import Slice, build_graph
 from app.store.measure_results import list_stored_results
 from app.store.summary import get_data_version
 
-__all__ = ["NodeRow", "EdgeRow", "SliceExport", "adjacency_csv", "edges_csv", "nodes_csv", "slice_export", "to_graphml"]
+__all__ = ["NodeRow", "EdgeRow", "SliceExport", "adjacency_csv", "edges_csv", "nodes_csv", "slice_export", "to_graphml",
+           "with_persons_hidden"]
 
 VISIBILITY_ALL = "all"
 
@@ -109,6 +110,27 @@ def slice_export(session: Session, slice_: Slice) -> SliceExport:
     ) for u, v, data in G.edges(data=True)), key=lambda e: (e.source, e.target))
     return SliceExport(slice=slice_, slice_text=slice_.describe(), query=slice_key(slice_), data_version=version,
                        directed=G.is_directed(), weight=slice_.weight, nodes=nodes, edges=edges, measures=sorted(measures))
+
+
+def with_persons_hidden(export: SliceExport, keys: set[str] | frozenset[str], *, name: str) -> SliceExport:
+    """Return the export with the persons of ``keys`` as ``restricted-1``, ``restricted-2``, ... named ``name``.
+
+    Their ties, counts and measures stay (so the structure and the figures are those of the
+    slice); their names, life dates and identifiers go. Each hidden person keeps one id within
+    the file, numbered in the order of their keys, so two of them are never merged into one.
+    """
+    hidden = {n.key: f"restricted-{i}" for i, n in enumerate((n for n in export.nodes if n.key in keys), start=1)}
+    if not hidden:
+        return export
+    nodes = sorted((NodeRow(key=hidden[n.key], name=name, kind=n.kind, unidentified=n.unidentified, born=None, died=None,
+                            identifiers=[], measures=n.measures) if n.key in hidden else n for n in export.nodes),
+                   key=lambda n: n.key)
+    edges = sorted((EdgeRow(source=hidden.get(e.source, e.source), target=hidden.get(e.target, e.target), kinds=e.kinds,
+                            weight=e.weight, attestations=e.attestations, documents=e.documents, source_keys=e.source_keys)
+                    for e in export.edges), key=lambda e: (e.source, e.target))
+    return SliceExport(slice=export.slice, slice_text=export.slice_text, query=export.query,
+                       data_version=export.data_version, directed=export.directed, weight=export.weight,
+                       nodes=nodes, edges=edges, measures=export.measures)
 
 
 def to_graphml(export: SliceExport) -> bytes:

@@ -189,11 +189,20 @@ def ego_api(request: Request, key: str, session: SessionDep, slice: SliceDep, ra
     responses={200: {"content": {"image/svg+xml": {}}}},
 )
 def ego_svg(request: Request, key: str, session: SessionDep, slice: SliceDep, radius: str = _RADIUS) -> Response:  # noqa: A002
+    svg, name = ego_download(request, session, slice, key, radius)
+    return Response(svg, media_type="image/svg+xml", headers={"Content-Disposition": f'attachment; filename="{name}.svg"'})
+
+
+def ego_download(request: Request, session: Session, slice: Slice, key: str, radius: str) -> tuple[str, str]:  # noqa: A002
+    """Return the standalone SVG of an ego drawing, as the viewer may see it, and a file name for it.
+
+    The caption names the person, the radius, the slice and the data version; a drawing about a
+    restricted person is refused to a reader (403), as the page is.
+    """
     view = redact_for(request, ego_panel(session=session, person_key=key, slice=slice, radius=_radius(radius)))
     caption = (f"Ego network of {view.name} ({view.key}), radius {view.radius}. Slice: {view.summary}. "
                f"Attesta, data version {view.data_version}.")  # fmt: skip
     svg = templates.get_template("ego_download.svg").render(
         page=view, urls=urls_for(request), caption_lines=textwrap.wrap(caption, 120)
     )
-    filename = f"ego-{view.key.replace(':', '_')}-radius{view.radius}.svg"
-    return Response(svg, media_type="image/svg+xml", headers={"Content-Disposition": f'attachment; filename="{filename}"'})
+    return svg, f"ego-{view.key.replace(':', '_')}-radius{view.radius}"

@@ -8,20 +8,28 @@ slice; each file route takes the slice from its query string. A snapshot is made
 from __future__ import annotations
 
 import json
-import textwrap
 from dataclasses import dataclass
 
-from fastapi import APIRouter, Depends, Query, Request
+from fastapi import APIRouter, Depends, HTTPException, Query, Request
 from fastapi.responses import HTMLResponse, Response
 from sqlalchemy.orm import Session
 
 from app.auth import CsrfChecked, CurrentActor
 from app.exchange.csl import csl_items
-from app.exchange.network_export import adjacency_csv, edges_csv, nodes_csv, slice_export, to_graphml
+from app.exchange.network_export import (
+    SliceExport,
+    adjacency_csv,
+    edges_csv,
+    nodes_csv,
+    slice_export,
+    to_graphml,
+    with_persons_hidden,
+)
 from app.exchange.snapshot import DatasetVersion, dataset_version, snapshot_bytes
 from app.network.slice import Slice
-from app.views.common import BadParameter, SessionDep, SliceDep, render, templates, urls_for
-from app.views.ego import _radius, ego_panel
+from app.views.common import BadParameter, SessionDep, SliceDep, render, urls_for
+from app.views.ego import ego_download
+from app.views.redaction import RESTRICTED_NAME, redact_for, restricted_for
 
 __all__ = ["router"]
 
@@ -125,6 +133,30 @@ def export_api(request: Request, session: SessionDep, slice_: SliceDep, person: 
     return render(request, export_view(request, session, slice_, person), template="export.html")
 
 
+def viewer_export(request: Request, session: Session, slice_: Slice) -> SliceExport:
+    """The slice's export as the viewer may see it: restricted persons as numbered "restricted person" nodes.
+
+    Ties and figures stay; names, dates and identifiers go, and any other text naming them is
+    rewritten by the same pass as every page (``redaction``).
+    """
+    export = slice_export(session, slice_)
+    restricted = restricted_for(request)
+    if restricted is None:
+        return export
+    return redact_for(request, with_persons_hidden(export, restricted.keys, name=RESTRICTED_NAME))
+
+
+WHOLE_DATASET_RESTRICTED = ("The whole dataset holds restricted persons (recorded as living, or born too recently), "
+                            "whose data is shown to editors only, so its workbook and snapshots are for editors and "
+                            "admins; the slice's GraphML, tables and sources show them as \"restricted person\".")
+
+
+def whole_dataset_allowed(request: Request) -> None:
+    """Refuse (403) the whole workbook to a viewer who may not see some of its persons."""
+    if restricted_for(request) is not None:
+        raise HTTPException(403, WHOLE_DATASET_RESTRICTED)
+
+
 def _download(data: bytes | str, media_type: str, filename: str) -> Response:
     return Response(data, media_type=media_type, headers={"Content-Disposition": f'attachment; filename="{filename}"'})
 
@@ -133,41 +165,44 @@ def _download(data: bytes | str, media_type: str, filename: str) -> Response:
             description="Persons (id = key; name, kind, life dates, identifiers, stored centralities) and ties (kind, "
                         "weight, attestations, documents, source keys) as GraphML." + _SLICE,
             responses={200: {"content": {"application/graphml+xml": {}}}})
-def export_graphml(session: SessionDep, slice_: SliceDep) -> Response:
-    return _download(to_graphml(slice_export(session, slice_)), "application/graphml+xml", "slice.graphml")
+def export_graphml(request: Request, session: SessionDep, slice_: SliceDep) -> Response:
+    return _download(to_graphml(viewer_export(request, session, slice_)), "application/graphml+xml", "slice.graphml")
 
 
 @router.get("/export/nodes.csv", response_class=Response, summary="The slice's persons as CSV",
             description="One row per person of the slice with its attributes and stored centralities." + _SLICE)
-def export_nodes(session: SessionDep, slice_: SliceDep) -> Response:
-    return _download(nodes_csv(slice_export(session, slice_)), "text/csv; charset=utf-8", "slice-persons.csv")
+def export_nodes(request: Request, session: SessionDep, slice_: SliceDep) -> Response:
+    return _download(nodes_csv(viewer_export(request, session, slice_)), "text/csv; charset=utf-8", "slice-persons.csv")
 
 
 @router.get("/export/edges.csv", response_class=Response, summary="The slice's ties as CSV",
             description="One row per tie of the slice: kinds, weight, attestations, documents and source keys." + _SLICE)
-def export_edges(session: SessionDep, slice_: SliceDep) -> Response:
-    return _download(edges_csv(slice_export(session, slice_)), "text/csv; charset=utf-8", "slice-ties.csv")
+def export_edges(request: Request, session: SessionDep, slice_: SliceDep) -> Response:
+    return _download(edges_csv(viewer_export(request, session, slice_)), "text/csv; charset=utf-8", "slice-ties.csv")
 
 
 @router.get("/export/matrix.csv", response_class=Response, summary="The slice's adjacency matrix as CSV",
             description="Tie weights from the row person to the column person, persons in key order." + _SLICE)
-def export_matrix(session: SessionDep, slice_: SliceDep) -> Response:
-    return _download(adjacency_csv(slice_export(session, slice_)), "text/csv; charset=utf-8", "slice-matrix.csv")
+def export_matrix(request: Request, session: SessionDep, slice_: SliceDep) -> Response:
+    return _download(adjacency_csv(viewer_export(request, session, slice_)), "text/csv; charset=utf-8", "slice-matrix.csv")
 
 
 @router.get("/export/sources.json", response_class=Response, summary="The slice's sources as CSL-JSON",
             description="The documents that attest the slice's ties as CSL-JSON items: archival ones as `manuscript` "
                         "with archive, archive_location and call-number, printed ones as `book` with author, title, "
                         "publisher and issued." + _SLICE)
-def export_sources(session: SessionDep, slice_: SliceDep) -> Response:
+def export_sources(request: Request, session: SessionDep, slice_: SliceDep) -> Response:
     keys = {k for e in slice_export(session, slice_).edges for k in e.source_keys}
-    return _download(json.dumps(csl_items(session, keys=keys), indent=2, ensure_ascii=False),
+    items = redact_for(request, csl_items(session, keys=keys))  # a restricted person's name in a title or author
+    return _download(json.dumps(items, indent=2, ensure_ascii=False),
                      "application/vnd.citationstyles.csl+json", "slice-sources.json")
 
 
 @router.get("/export/workbook.zip", response_class=Response, summary="The whole dataset as a workbook (.zip)",
-            description="Every workbook file with keys filled in, as `attesta export` writes them; `attesta import` reads it back.")
-def export_workbook_zip(session: SessionDep) -> Response:
+            description="Every workbook file with keys filled in, as `attesta export` writes them; `attesta import` reads it "
+                        "back. Refused (403) to a viewer who may not see restricted persons while the dataset holds any.")
+def export_workbook_zip(request: Request, session: SessionDep) -> Response:
+    whole_dataset_allowed(request)
     import io
     import zipfile
 
@@ -205,21 +240,18 @@ def export_ego_png(request: Request, session: SessionDep, slice_: SliceDep, pers
 
 
 def ego_svg_text(request: Request, session: Session, slice_: Slice, person: str, radius: str) -> tuple[str, str]:
-    """Return the standalone SVG of an ego drawing, with its caption, and a file name for it."""
-    view = ego_panel(session=session, person_key=person, slice=slice_, radius=_radius(radius))
-    caption = (f"Ego network of {view.name} ({view.key}), radius {view.radius}. Slice: {view.summary}. "
-               f"Attesta, data version {view.data_version}.")
-    svg = templates.get_template("ego_download.svg").render(page=view, urls=urls_for(request),
-                                                            caption_lines=textwrap.wrap(caption, 120))
-    return svg, f"ego-{view.key.replace(':', '_')}-radius{view.radius}"
+    """Return the standalone SVG of an ego drawing as the viewer may see it, and a file name for it."""
+    return ego_download(request, session, slice_, person, radius)
 
 
 @router.post("/export/snapshot", response_class=Response, summary="Make a citable snapshot (.zip)",
              description="Answers a .zip with the whole workbook, the slice definition, every measure result stored for "
                          "the slice, a README (dataset name, date, counts, software version) and the content hash. "
-                         "Needs the form's CSRF token." + _SLICE,
+                         "Needs the form's CSRF token. Refused (403) to a viewer who may not see restricted persons "
+                         "while the dataset holds any." + _SLICE,
              responses={200: {"content": {"application/zip": {}}}})
 def export_snapshot(request: Request, _: CsrfChecked, actor: CurrentActor, session: SessionDep, slice_: SliceDep) -> Response:
+    whole_dataset_allowed(request)
     data, cited = snapshot_bytes(session, slice_, dataset_name=request.app.state.settings.dataset_name)
     response = _download(data, "application/zip", f"snapshot-{cited.sha256[:12]}.zip")
     response.headers["X-Dataset-Version"] = cited.sha256

@@ -70,6 +70,8 @@ def test_every_file_of_a_slice_downloads_from_the_export_page_and_reads_in_other
         expect(page.locator(".slice-line")).to_contain_text("letter")
         page.screenshot(path=str(ARTIFACTS / "export-page.png"), full_page=True)
         files = page.locator(".export-files")
+        version = page.locator(".dataset-hash").inner_text()  # the dataset version the page asks a paper to cite
+        assert len(version) == 64
 
         name, data = download(page, lambda: files.get_by_role("link", name="GraphML").click(), got)
         assert name == "slice.graphml"
@@ -113,7 +115,8 @@ def test_every_file_of_a_slice_downloads_from_the_export_page_and_reads_in_other
         drawing = etree.fromstring(svg)
         assert drawing.tag == f"{SVG}svg" and name.startswith("ego-p-anna")
         caption = " ".join(t for t in drawing.itertext())
-        assert "Anna Vell" in caption and "Slice:" in caption and "letter" in caption and "data version" in caption
+        assert "Anna Vell" in caption and "Slice:" in caption and "letter" in caption
+        assert f"dataset version {version[:16]}" in caption  # the drawing names the version the page cites
         assert len(drawing.findall(f".//{SVG}circle")) + len(drawing.findall(f".//{SVG}rect")) >= 3
         name, png = download(page, lambda: page.get_by_role("button", name="Drawing as PNG").click(), got)
         assert png[:8] == b"\x89PNG\r\n\x1a\n" and png[12:16] == b"IHDR"  # PNG signature, then the IHDR chunk

@@ -196,12 +196,16 @@ def ego_svg(request: Request, key: str, session: SessionDep, slice: SliceDep, ra
 def ego_download(request: Request, session: Session, slice: Slice, key: str, radius: str) -> tuple[str, str]:  # noqa: A002
     """Return the standalone SVG of an ego drawing, as the viewer may see it, and a file name for it.
 
-    The caption names the person, the radius, the slice and the data version; a drawing about a
+    The caption names the person, the radius, the slice and the dataset version (the first 16
+    hex digits of the content hash the export page cites) with the data version; a drawing about a
     restricted person is refused to a reader (403), as the page is.
     """
+    from app.views.dataset_version import cached_dataset_version  # snapshot code, needed for downloads only
+
     view = redact_for(request, ego_panel(session=session, person_key=key, slice=slice, radius=_radius(radius)))
+    cited = cached_dataset_version(request, session).sha256
     caption = (f"Ego network of {view.name} ({view.key}), radius {view.radius}. Slice: {view.summary}. "
-               f"Attesta, data version {view.data_version}.")  # fmt: skip
+               f"Attesta, dataset version {cited[:16]} (data version {view.data_version}).")  # fmt: skip
     svg = templates.get_template("ego_download.svg").render(
         page=view, urls=urls_for(request), caption_lines=textwrap.wrap(caption, 120)
     )

@@ -25,9 +25,10 @@ from app.exchange.network_export import (
     to_graphml,
     with_persons_hidden,
 )
-from app.exchange.snapshot import DatasetVersion, dataset_version, snapshot_bytes
+from app.exchange.snapshot import DatasetVersion, snapshot_bytes
 from app.network.slice import Slice
 from app.views.common import BadParameter, SessionDep, SliceDep, render, urls_for
+from app.views.dataset_version import cached_dataset_version
 from app.views.ego import ego_download
 from app.views.redaction import RESTRICTED_NAME, redact_for, restricted_for
 
@@ -91,23 +92,9 @@ def export_links(request: Request, slice_: Slice) -> list[ExportLink]:
     ]
 
 
-def _version(request: Request, session: Session) -> DatasetVersion:
-    """The dataset version, kept per data version so the page does not rehash an unchanged dataset."""
-    from app.store.summary import get_data_version
-
-    cache = getattr(request.app.state, "dataset_versions", None)
-    if cache is None:
-        cache = request.app.state.dataset_versions = {}
-    current = get_data_version(session=session)
-    if current not in cache:
-        cache.clear()
-        cache[current] = dataset_version(session)
-    return cache[current]
-
-
 def export_view(request: Request, session: Session, slice_: Slice, person: str | None = None) -> ExportPage:
     urls = urls_for(request)
-    return ExportPage(slice=slice_, slice_summary=slice_.describe(), version=_version(request, session),
+    return ExportPage(slice=slice_, slice_summary=slice_.describe(), version=cached_dataset_version(request, session),
                       files=export_links(request, slice_), snapshot_action=urls.export("snapshot", slice_),
                       drawing_svg=urls.export("ego.svg"), drawing_png=urls.export("ego.png"),
                       slice_fields=slice_.to_query(), person=(person or "").strip() or None)

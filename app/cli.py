@@ -85,22 +85,61 @@ def init(database: str | None) -> None:
 
 @main.command(name="import")
 @db_option
-@click.argument("workbook", type=click.Path(path_type=Path))
+@click.argument("workbook", nargs=-1, required=True, type=click.Path(path_type=Path))
+@click.option("--mapping", type=click.Path(path_type=Path), default=None,
+              help="A column mapping (.json) saved from the upload page or written by --write-mapping.")
+@click.option("--write-mapping", type=click.Path(path_type=Path), default=None,
+              help="Write the suggested column mapping to this file (to check and pass to --mapping) and stop.")
+@click.option("--duplicates", type=click.Choice(["stop", "apart", "link"]), default="stop", show_default=True,
+              help="Likely duplicate persons: stop before writing, import keeping them apart, or import linking "
+                   "each pair as possibly the same.")
 @reports_problems
-def import_command(database: str | None, workbook: Path) -> None:
-    """Import a workbook (a folder or .zip of CSV files): all rows, or nothing."""
+def import_command(database: str | None, workbook: tuple[Path, ...], mapping: Path | None, write_mapping: Path | None,
+                   duplicates: str) -> None:
+    """Import a workbook (a folder or .zip of CSV files, an .xlsx, CSV files): all rows, or nothing.
+
+    As on the upload page, sheets named or laid out differently need a column mapping, and
+    likely duplicate persons are shown before anything is written.
+    """
+    from app.exchange.file_import import import_prepared, prepare_files
+    from app.exchange.mapping import mapping_json
+
     settings, db = _open(database)
     check_schema(db)
+    prepared = prepare_files(list(workbook), db, size_limit=settings.upload_limit_bytes, mapping=mapping)
+    if write_mapping is not None:
+        write_mapping.write_text(mapping_json(prepared.mappings), encoding="utf-8")
+        click.echo(f"{write_mapping}: the column mapping of {len(prepared.mappings)} sheet(s); check it, then "
+                   f"import with --mapping {write_mapping}")
+        return
+    if prepared.unsettled:
+        for m in prepared.unsettled:
+            click.echo(f"{m.label}: " + ("; ".join(m.reasons) or "its columns would be read as "
+                       + ", ".join(f"{h} -> {f}" for h, f in m.columns.items() if f and f != h)), err=True)
+        _fail("these sheets need a column mapping; nothing was imported. Write the suggested one with "
+              "--write-mapping FILE, check it, and import with --mapping FILE (or map them on the /import page "
+              "and download column-mapping.json)")
+    if prepared.duplicates and duplicates == "stop":
+        for d in prepared.duplicates[:50]:
+            where = "stored" if d.other_stored else "in this workbook"
+            click.echo(f"likely duplicate: {d.new_key} ({d.new_name}) ~ {d.other_key} ({d.other_name}, {where}), "
+                       f"score {d.score}, {d.dates}", err=True)
+        if len(prepared.duplicates) > 50:
+            click.echo(f"... and {len(prepared.duplicates) - 50} more", err=True)
+        _fail(f"{len(prepared.duplicates)} likely duplicate person(s); nothing was imported. Rename or key them in "
+              "the workbook, decide pair by pair on the /import page, or import anyway with --duplicates apart "
+              "(kept as separate persons) or --duplicates link (each pair linked as possibly the same)")
     with tqdm(desc="rows", unit=" rows", disable=None, leave=False, file=sys.stderr) as bar:
 
         def progress(done: int, total: int) -> None:
             bar.total = total
             bar.update(done - bar.n)
 
-        report = import_workbook(db, workbook, size_limit=settings.upload_limit_bytes, actor="cli", progress=progress)
-    for line in report.lines():
-        click.echo(line)
-    click.echo(f"data version {report.data_version}" + ("" if report.changed_anything else " (nothing changed)"))
+        report = import_prepared(db, prepared, duplicates="link" if duplicates == "link" else "apart", actor="cli",
+                                 progress=progress)
+    if prepared.duplicates and duplicates == "apart":
+        click.echo(f"{len(prepared.duplicates)} likely duplicate person(s) kept apart")
+    _report(report)
 
 
 def restricted_options(command: Callable) -> Callable:

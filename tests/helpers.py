@@ -41,13 +41,14 @@ def free_port() -> int:
 
 
 @contextmanager
-def running_server(db_url: str, *, env: dict[str, str] | None = None, timeout: float = 20.0,
+def running_server(db_url: str, *, env: dict[str, str] | None = None, timeout: float = 90.0,
                    workers: int = 1) -> Iterator[str]:
     """Run ``uvicorn app.main:app_from_env --factory`` on ``db_url``; yield its base URL, then stop it.
 
     ``env`` adds environment variables (``ATTESTA_DATASET_NAME``, ...). If the server does not
-    answer within ``timeout`` seconds, its output is part of the error. ``workers`` above 1 runs
-    ``attesta serve --workers N`` instead (several server processes).
+    answer within ``timeout`` seconds, its output is part of the error (importing the app alone
+    can take half a minute on a machine whose two cores other test runs share). ``workers`` above
+    1 runs ``attesta serve --workers N`` instead (several server processes).
     """
     port = free_port()
     base_url = f"http://127.0.0.1:{port}"

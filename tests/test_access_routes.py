@@ -80,6 +80,7 @@ for method, template, path in [
     ("POST", "/import/{token}/confirm", "/import/nosuch/confirm"), ("POST", "/import/{token}/mapping", "/import/nosuch/mapping"),
     ("GET", "/import/{token}/mapping.json", "/import/nosuch/mapping.json"),
     ("GET", "/import/{token}/progress", "/import/nosuch/progress"),
+    ("POST", "/import/{token}/source", "/import/nosuch/source"),
     ("POST", "/memberships/{membership_id}/attestations", "/memberships/1/attestations"),
     ("GET", "/memberships/{membership_id}/edit", "/memberships/1/edit"),
     ("POST", "/memberships/{membership_id}/edit", "/memberships/1/edit"),

@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import json
 import os
 import sqlite3
 import subprocess
@@ -152,3 +153,92 @@ def test_tei_graphml_exports_and_snapshot_commands(initialized, tmp_path):
     assert first.returncode == 0 and first.stdout.splitlines()[0].split()[-1] == second.stdout.splitlines()[0].split()[-1]
     bad_slice = attesta("snapshot", "--db", str(initialized), "--slice", "certainty=sure", str(tmp_path / "c.zip"))
     assert bad_slice.returncode == 1 and "--slice" in bad_slice.stderr
+
+
+def exported_files(db: Path, folder: Path) -> dict[str, str]:
+    assert attesta("export", "--db", str(db), str(folder)).returncode == 0
+    return {p.name: p.read_text() for p in sorted(folder.iterdir())}
+
+
+def test_an_xlsx_workbook_imports_as_its_csv_files_do(tmp_path):
+    from tests.test_import_pages import xlsx_of  # openpyxl writes the sheets (ECMA-376 SpreadsheetML)
+
+    dbs = {}
+    for kind in ("csv", "xlsx"):
+        db = tmp_path / f"{kind}.db"
+        assert attesta("init", "--db", str(db)).returncode == 0
+        if kind == "csv":
+            given = write_workbook(tmp_path / "wb", small_world())
+        else:
+            given = tmp_path / "world.xlsx"
+            given.write_bytes(xlsx_of(small_world()))
+        result = attesta("import", "--db", str(db), str(given))
+        assert result.returncode == 0, result.stderr
+        dbs[kind] = exported_files(db, tmp_path / f"out-{kind}")
+    assert dbs["xlsx"] == dbs["csv"] and "p-anna" in dbs["csv"]["persons.csv"]
+
+
+def test_sheets_named_differently_need_a_mapping_that_is_written_checked_and_reused(initialized, tmp_path):
+    assert attesta("import", "--db", str(initialized), str(write_workbook(tmp_path / "wb", small_world()))).returncode == 0
+    before = counts(initialized)
+    letters = tmp_path / "letters.csv"
+    letters.write_text("Sender,Recipient,Date of letter,Document,Type\np-anna,p-jost,1705-01-02,s-1,letter\n")
+    stopped = attesta("import", "--db", str(initialized), str(letters))
+    assert stopped.returncode == 1 and "need a column mapping" in stopped.stderr
+    assert "letters.csv is not the name of a workbook file" in stopped.stderr
+    assert counts(initialized) == before
+
+    mapping = tmp_path / "mapping.json"
+    written = attesta("import", "--db", str(initialized), "--write-mapping", str(mapping), str(letters))
+    assert written.returncode == 0 and counts(initialized) == before
+    saved = json.loads(mapping.read_text())
+    assert saved["sheets"]["letters.csv"]["file"] == "relations.csv"
+    assert saved["sheets"]["letters.csv"]["columns"]["Sender"] == "person"
+    done = attesta("import", "--db", str(initialized), "--mapping", str(mapping), str(letters))
+    assert done.returncode == 0, done.stderr
+    assert counts(initialized)["attestation"] == before["attestation"] + 1
+
+    edges = tmp_path / "edges.csv"  # an edge list: source and target are persons, not documents
+    edges.write_text("source,target\np-anna,p-jost\n")
+    asked = attesta("import", "--db", str(initialized), str(edges))
+    assert asked.returncode == 1 and "edge list" in asked.stderr
+    broken = tmp_path / "broken.json"
+    broken.write_text('{"format": "attesta-column-mapping", "sheets": {"edges.csv": {"file": "letters.csv"}}}')
+    refused = attesta("import", "--db", str(initialized), "--mapping", str(broken), str(edges))
+    assert refused.returncode == 1 and "broken.json" in refused.stderr and "not a workbook file" in refused.stderr
+
+
+def test_likely_duplicates_stop_the_import_until_kept_apart_or_linked(initialized, tmp_path):
+    assert attesta("import", "--db", str(initialized), str(write_workbook(tmp_path / "wb", small_world()))).returncode == 0
+    before = counts(initialized)
+    new = tmp_path / "new"
+    new.mkdir()
+    # variant spellings of stored persons (doubled letters, a lost letter), and someone else
+    (new / "persons.csv").write_text("key,name,born\nn-jost,Joost Brener,1681\nn-anna,Anna Vel,\nn-other,Tilde Abeln,\n")
+    stopped = attesta("import", "--db", str(initialized), str(new))
+    assert stopped.returncode == 1 and "nothing was imported" in stopped.stderr
+    assert "n-anna (Anna Vel) ~ p-anna (Anna Vell, stored)" in stopped.stderr
+    assert "n-other" not in stopped.stderr
+    assert counts(initialized) == before
+
+    apart = attesta("import", "--db", str(initialized), "--duplicates", "apart", str(new))
+    assert apart.returncode == 0, apart.stderr
+    assert "kept apart" in apart.stdout
+    after = counts(initialized)
+    assert after["person"] == before["person"] + 3 and after["person_link"] == before["person_link"]
+
+    (new / "persons.csv").write_text("key,name\nn-anna2,Anna Vell\n")
+    linked = attesta("import", "--db", str(initialized), "--duplicates", "link", str(new))
+    assert linked.returncode == 0, linked.stderr
+    with sqlite3.connect(initialized) as connection:
+        pairs = connection.execute(
+            "SELECT a.key, b.key FROM person_link JOIN person a ON a.id = person_a_id JOIN person b ON b.id = person_b_id"
+        ).fetchall()
+    assert ("p-anna", "n-anna2") in pairs or ("n-anna2", "p-anna") in pairs
+
+
+def test_tei_and_graphml_files_are_pointed_to_their_own_commands(initialized, tmp_path):
+    letter = tmp_path / "letter.xml"
+    letter.write_text("<TEI/>")
+    result = attesta("import", "--db", str(initialized), str(letter))
+    assert result.returncode == 1 and "attesta import-tei" in result.stderr

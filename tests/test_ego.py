@@ -384,7 +384,7 @@ def test_svg_download_is_a_standalone_file_with_its_caption(client: TestClient):
     assert not root.findall(f".//{SVG}a")  # a file for a paper carries no links into this site
     text = " ".join(t.text or "" for t in root.iter(f"{SVG}text"))
     assert "Ego network of Elias Egmont (p-e), radius 2" in text
-    assert "certain and probable evidence" in text and "data version" in text
+    assert "certain and probable evidence" in text and "dataset version " in text and "data version" in text
     assert len(root.findall(f".//{SVG}circle")) + len(root.findall(f".//{SVG}rect")) >= 8
 
 

@@ -65,6 +65,9 @@ PAGES = [
     "/network/two-mode?format=csv&table=incidence", "/network/two-mode?format=csv&table=person_projection",
     "/network/two-mode?format=csv&table=persons", "/persons/p-anna/measures", "/api/persons/p-anna/measures",
     "/ties/p-anna/p-jost?mode=co-membership",
+    # the files of the export page: a reader downloads the slice without the restricted persons' traces
+    "/export", "/api/export", "/export/graphml", "/export/nodes.csv", "/export/edges.csv", "/export/matrix.csv",
+    "/export/sources.json", "/export/ego.svg?person=p-anna", "/export/ego.svg?person=p-jost&radius=2",
 ]  # fmt: skip
 ABOUT_THEM = ["/persons/p-zorwald", "/api/persons/p-zorwald", "/persons/p-ysolde", "/persons/p-zorwald/ego",
               "/api/persons/p-zorwald/ego", "/persons/p-zorwald/ego.svg", "/ties/p-anna/p-zorwald",
@@ -180,3 +183,28 @@ def test_the_living_rule_follows_the_setting_and_the_date(world):
     assert rule_140.keys == {"p-zorwald", "p-ysolde", "p-oldtimer"}  # born 1890
     assert later.keys == {"p-zorwald"}  # in 2061 the one born in 1950 is 110
 
+
+def test_the_slice_files_leave_restricted_persons_out_and_stay_valid(world):
+    import io
+
+    import networkx as nx
+    from lxml import etree
+
+    from tests.test_graphml import graphml_schema
+
+    database, reader, editor = world
+    mine = reader.get("/export/graphml?kind=letter").content
+    assert leaks(mine.decode()) == []
+    assert graphml_schema().validate(etree.fromstring(mine))  # still valid GraphML (published GraphML 1.0 schema)
+    G = nx.read_graphml(io.BytesIO(mine))
+    theirs = nx.read_graphml(io.BytesIO(editor.get("/export/graphml?kind=letter").content))
+    assert "p-zorwald" not in G and "p-zorwald" not in theirs  # left out for every role unless an admin asks
+    assert "p-anna" in G and set(G) == set(theirs)
+    assert reader.get("/export/ego.svg?person=p-zorwald").status_code == 403  # a drawing about them
+    assert editor.get("/export/ego.svg?person=p-zorwald").status_code == 403
+    whole = reader.get("/export/workbook.zip")
+    import zipfile
+
+    assert whole.status_code == 200
+    with zipfile.ZipFile(io.BytesIO(whole.content)) as archive:
+        assert not any("Zorwald" in archive.read(name).decode() for name in archive.namelist())

@@ -102,7 +102,11 @@ def test_the_command_initialises_and_imports_into_a_postgresql_url(postgres, tmp
         attesta = [sys.executable, "-m", "app.cli"]
         done = subprocess.run([*attesta, "init", "--db", url], capture_output=True, text=True, cwd=ROOT)
         assert done.returncode == 0, done.stderr
+        # the demo has namesakes told apart by their dates: the command names them and stops, until told
         done = subprocess.run([*attesta, "import", "--db", url, str(DEMO_WORKBOOK)], capture_output=True, text=True, cwd=ROOT)
+        assert done.returncode == 1 and "likely duplicate" in done.stderr
+        done = subprocess.run([*attesta, "import", "--db", url, "--duplicates", "apart", str(DEMO_WORKBOOK)],
+                              capture_output=True, text=True, cwd=ROOT)
         assert done.returncode == 0, done.stderr
         assert "data version 1" in done.stdout
         done = subprocess.run([*attesta, "export", "--db", url, str(tmp_path / "out")], capture_output=True, text=True, cwd=ROOT)

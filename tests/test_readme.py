@@ -81,6 +81,19 @@ def test_every_command_is_documented():
             assert f"`attesta {name} {sub}" in README, f"attesta {name} {sub} has no line in README.md"
 
 
+def test_every_option_is_documented():
+    """Each option of a command is named on that command's line of the README's command table."""
+    for name, command in cli_main.commands.items():
+        subcommands = getattr(command, "commands", {})
+        for full, each in [(name, command), *((f"{name} {sub}", c) for sub, c in subcommands.items())]:
+            lines = [line for line in README.splitlines() if line.startswith(f"| `attesta {full} ") or
+                     line.startswith(f"| `attesta {full}`")]
+            for param in each.params:
+                for option in getattr(param, "opts", []):
+                    if option.startswith("--") and option not in ("--help", "--version"):
+                        assert any(option in line for line in lines), f"{option} of attesta {full} is not on its README line"
+
+
 def test_every_setting_is_documented():
     for variable in re.findall(r'"(ATTESTA_[A-Z_]+)"', (ROOT / "app" / "config.py").read_text()):
         assert variable in README, f"{variable} is not described in README.md"

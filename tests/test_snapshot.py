@@ -6,6 +6,7 @@ import io
 import json
 import re
 import zipfile
+from pathlib import Path
 
 from fastapi.testclient import TestClient
 from sqlalchemy import update
@@ -71,12 +72,23 @@ def test_the_snapshot_holds_workbook_slice_measures_readme_and_hash(tmp_path):
     db.dispose()
 
 
+def csl_schema():
+    """The CSL data schema's validator (draft 3, as the schema declares itself)."""
+    import jsonschema
+
+    return jsonschema.Draft3Validator(json.loads((Path(__file__).resolve().parent / "csl" / "csl-data.json").read_text()))
+
+
 def test_sources_as_csl_json_follow_the_csl_data_schema(tmp_path):
     db = fresh(tmp_path, "c")
     with db.read() as session:
         items = {item["id"]: item for item in csl_items(session)}
     db.dispose()
-    # CSL 1.0.2 data schema (csl-data.json): archival items are manuscripts with archive fields
+    # the published CSL data schema (csl-data.json, shipped in tests/csl/, its README names the package)
+    schema = csl_schema()
+    assert not list(schema.iter_errors(list(items.values()))), [e.message for e in schema.iter_errors(list(items.values()))]
+    assert list(schema.iter_errors([dict(items["s-1"], archive_place="Harwick")]))  # a misspelt field is refused
+    # archival items are manuscripts with archive fields (field names as in csl-data.json)
     letter = items["s-1"]
     assert letter["type"] == "manuscript" and letter["archive"] == "Harwick Town Archive"
     assert letter["archive_location"] == "Vell family papers (VFP)" and letter["call-number"] == "VFP 1/1"

@@ -103,6 +103,25 @@ def test_persons_are_matched_to_stored_ones_by_key_and_by_identifier(database, t
         assert relation.person_a_id == anna.id
 
 
+def test_an_archive_named_like_a_stored_one_is_that_one_not_a_second(database, tmp_path):
+    world = small_world()
+    world["repositories.csv"][0]["name"] = "HARWICK  Town archive"  # case and spacing differ from the TEI's
+    world["repositories.csv"].append({"key": "rep-other", "name": "Ostmere Archive"})
+    world["collections.csv"].append({"key": "col-other", "repository": "rep-other", "name": "Vell family papers"})
+    import_workbook(database, write_workbook(tmp_path / "wb", world), size_limit=LIMIT)
+    before = row_counts(database)
+    import_tei(database, tei("letter_single.xml"), "letter_single.xml")  # msIdentifier names the archive only by name
+    after = row_counts(database)
+    assert (after["repository"], after["collection"]) == (before["repository"], before["collection"])
+    with database.read() as session:
+        letter = session.scalar(select(Source).where(Source.key == "tei-vell-0001"))
+        # the collection of that name in that repository, not the one of the same name elsewhere
+        assert (letter.collection.key, letter.collection.repository.key) == ("col-vell", "rep-harwick")
+        assert letter.collection.repository.name == "HARWICK  Town archive"  # the stored name is kept
+    again = import_tei(database, tei("letter_single.xml"), "letter_single.xml")
+    assert not again.changed_anything
+
+
 def test_importing_the_same_file_again_changes_nothing(database):
     import_tei(database, tei("letters_index.xml"), "letters_index.xml")
     before = row_counts(database)

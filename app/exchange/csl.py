@@ -3,7 +3,8 @@
 Archival documents are items of type ``manuscript`` with ``archive`` (the repository),
 ``archive-place``, ``archive_location`` (the collection) and ``call-number`` (the shelfmark);
 printed ones are ``book`` items with ``author``, ``title``, ``publisher``, ``issued`` and
-``page``. Field names follow the CSL 1.0.2 data schema (csl-data.json).
+``page``. Field names are those of the CSL data schema (csl-data.json); the tests validate the
+items against the published schema (tests/csl/).
 """
 
 from __future__ import annotations

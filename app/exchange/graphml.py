@@ -18,6 +18,7 @@ import hashlib
 
 from lxml import etree
 from sqlalchemy import select
+from sqlalchemy.orm import Session
 
 from app.dates import DateError, interval_or_none
 from app.db import Database
@@ -28,7 +29,7 @@ from app.exchange.xmlsafe import local_name, parse_untrusted
 from app.models import CERTAINTIES, EVIDENCE_KINDS, PERSON_KINDS, RelationKind
 from app.network.measures import MEASURES
 
-__all__ = ["DEFAULT_KIND", "import_graphml", "read_graphml"]
+__all__ = ["DEFAULT_KIND", "import_graphml", "prepare_graphml", "read_graphml"]
 
 DEFAULT_KIND = "tie"
 """The relation kind of edges that name none, created on first use."""
@@ -60,22 +61,22 @@ def read_graphml(
     return tables, problems
 
 
-def import_graphml(
-    database: Database, data: bytes, name: str, *, source_title: str, source_key: str | None = None,
-    kind: str = DEFAULT_KIND, evidence: str = "mention", key_prefix: str = "", actor: str = "cli",
-) -> ImportReport:
-    """Import a GraphML file in one transaction; WorkbookError (nothing written) on any problem.
+def prepare_graphml(
+    session: Session, data: bytes, name: str, *, source_title: str, source_key: str | None = None,
+    kind: str = DEFAULT_KIND, evidence: str = "mention", key_prefix: str = "",
+) -> tuple[dict[str, list[Row]], list[Problem], list[str]]:
+    """Return the GraphML file's rows matched to the stored data (read in ``session``), its problems and notes.
 
     Nodes whose key is stored already keep their name and kind; a ``kind`` that is not stored is
-    created only when it is ``tie`` (directed as the graph is), otherwise it is a problem.
+    created only when it is ``tie`` (directed as the graph is); an undirected edge of a directed
+    stored kind is a problem.
     """
     tables, problems, notes = _read(data, name, source_title=source_title, source_key=source_key, kind=kind,
                                     evidence=evidence, key_prefix=key_prefix)
     if problems:
-        raise WorkbookError(problems)
-    with database.read() as session:
-        directed_of = dict(session.execute(select(RelationKind.key, RelationKind.directed)).all())
-        tables = match_existing(session, tables)
+        return {}, problems, notes
+    directed_of = dict(session.execute(select(RelationKind.key, RelationKind.directed)).all())
+    tables = match_existing(session, tables)
     graph_directed = any(r.values.get("_directed") == "yes" for r in tables.get("relations.csv", []))
     kinds_used = {r.values["kind"] for r in tables.get("relations.csv", [])}
     for used in sorted(kinds_used):
@@ -94,6 +95,23 @@ def import_graphml(
                                     f"kind {row.values['kind']!r}: which end is the sender is not known"))
         elif kind_directed is False and edge_directed:
             notes.append(f"line {row.line}: a directed edge became a tie of the undirected kind {row.values['kind']!r}")
+    if problems:
+        return {}, problems, notes
+    return tables, [], notes
+
+
+def import_graphml(
+    database: Database, data: bytes, name: str, *, source_title: str, source_key: str | None = None,
+    kind: str = DEFAULT_KIND, evidence: str = "mention", key_prefix: str = "", actor: str = "cli",
+) -> ImportReport:
+    """Import a GraphML file in one transaction; WorkbookError (nothing written) on any problem.
+
+    The matching (:func:`prepare_graphml`) reads in its own transaction just before the write.
+    """
+    with database.read() as session:
+        tables, problems, notes = prepare_graphml(session, data, name, source_title=source_title,
+                                                  source_key=source_key, kind=kind, evidence=evidence,
+                                                  key_prefix=key_prefix)
     if problems:
         raise WorkbookError(problems)
     return import_tables(database, tables, name=name, sha256=hashlib.sha256(data).hexdigest(), warnings=notes, actor=actor)

@@ -16,7 +16,7 @@ from itertools import islice
 from app.exchange.workbook import FILES, Sheet, SheetPlan, workbook_file_of
 from app.names import fold
 
-__all__ = ["MAPPING_FORMAT", "SheetMapping", "mapping_json", "plans_from_json", "suggest_mappings"]
+__all__ = ["MAPPING_FORMAT", "SheetMapping", "mapping_json", "needs_confirmation", "plans_from_json", "suggest_mappings"]
 
 MAPPING_FORMAT = "attesta-column-mapping"
 EDGE_SAMPLE = 200  # values of the source column looked at to tell persons from documents
@@ -99,6 +99,22 @@ def suggest_mappings(sheets: list[Sheet], person_keys: set[str], plans: dict[str
         found.append(SheetMapping(sheet.name, sheet.label, sheet.header, file, columns, edge_list=edge,
                                   examples=examples, reasons=reasons))
     return found
+
+
+def needs_confirmation(mapping: SheetMapping) -> bool:
+    """True when reading the sheet as it is named would misread it, so the user must settle a mapping.
+
+    That is an edge list, a sheet recognised only by its columns, or a column that would be read
+    as another (``Sender`` as ``person``). Columns that are no workbook columns are only left out
+    (a warning), and a sheet that suggests no workbook file at all is left out too.
+    """
+    if mapping.edge_list:
+        return True
+    if mapping.file is None:
+        return False
+    if mapping.file != workbook_file_of(mapping.sheet):
+        return True
+    return any(field and field != column for column, field in mapping.columns.items())
 
 
 def _field_of(header: str, file: str | None, edge: bool) -> str:

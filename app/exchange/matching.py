@@ -5,6 +5,10 @@ rows go to the workbook importer, :func:`match_existing` renames every row's per
 the stored one that has the same identifier, and makes sure that a stored record keeps what it
 has: its name (the new spelling becomes a variant), kind and identifier. Identifiers already
 stored are not sent again, so importing the same file twice changes nothing.
+
+A TEI file names its archive only by name (``msIdentifier/repository`` and ``collection``), so a
+repository is the stored one of the same name (case, accents and spacing aside), and a collection
+the stored one of the same name in that repository, rather than a second record of the same archive.
 """
 
 from __future__ import annotations
@@ -13,13 +17,21 @@ from sqlalchemy import select
 from sqlalchemy.orm import Session
 
 from app.exchange.workbook import Row
-from app.models import Person, PersonIdentifier, PersonName, Place
+from app.models import Collection, Person, PersonIdentifier, PersonName, Place, Repository
+from app.names import fold
 
 __all__ = ["match_existing"]
 
 _PERSON_COLUMNS = {"relations.csv": ("person", "other"), "memberships.csv": ("person",), "facts.csv": ("person",)}
 _PLACE_COLUMNS = {"sources.csv": ("place_from", "place_to"), "relations.csv": ("place",), "facts.csv": ("place",),
                   "repositories.csv": ("place",), "groups.csv": ("place",)}
+_REPOSITORY_COLUMNS = {"sources.csv": ("repository",), "collections.csv": ("repository",)}
+_COLLECTION_COLUMNS = {"sources.csv": ("collection",)}
+
+
+def _same_name(name: str | None) -> str:
+    """The form under which two names of an archive are the same: folded, spaces collapsed."""
+    return " ".join(fold(name or "").split())
 
 
 def match_existing(session: Session, tables: dict[str, list[Row]]) -> dict[str, list[Row]]:
@@ -67,13 +79,60 @@ def match_existing(session: Session, tables: dict[str, list[Row]]) -> dict[str, 
                 values["identifier"] = identifier
         places.setdefault(key, Row(row.file, row.line, values))
 
+    renamed_repositories, repositories = _match_repositories(session, tables.get("repositories.csv", []))
+    renamed_collections, collections = _match_collections(session, tables.get("collections.csv", []),
+                                                          renamed_repositories)
+
     out = {name: list(rows) for name, rows in tables.items()}
     out["persons.csv"] = list(persons.values())
     out["places.csv"] = list(places.values())
-    for renamed, columns_of in ((renamed_persons, _PERSON_COLUMNS), (renamed_places, _PLACE_COLUMNS)):
+    out["repositories.csv"] = repositories
+    out["collections.csv"] = collections
+    for renamed, columns_of in ((renamed_persons, _PERSON_COLUMNS), (renamed_places, _PLACE_COLUMNS),
+                                (renamed_repositories, _REPOSITORY_COLUMNS), (renamed_collections, _COLLECTION_COLUMNS)):
         if not renamed:
             continue
         for name, columns in columns_of.items():
             out[name] = [Row(r.file, r.line, {c: renamed.get(v, v) if c in columns else v for c, v in r.values.items()})
                          for r in out.get(name, [])]
     return {name: rows for name, rows in out.items() if rows}
+
+
+def _match_repositories(session: Session, rows: list[Row]) -> tuple[dict[str, str], list[Row]]:
+    """Rename each repository row to the stored repository of its key or, failing that, of its name."""
+    stored = {key: name for key, name in session.execute(select(Repository.key, Repository.name).order_by(Repository.id))}
+    by_name: dict[str, str] = {}
+    for key, name in stored.items():
+        by_name.setdefault(_same_name(name), key)  # the oldest of several of one name
+    renamed: dict[str, str] = {}
+    out: dict[str, Row] = {}
+    for row in rows:
+        given = row.values["key"]
+        key = given if given in stored else by_name.get(_same_name(row.values.get("name")), given)
+        if key != given:
+            renamed[given] = key
+        values = {"key": key, "name": stored[key]} if key in stored and key != given else dict(row.values)
+        out.setdefault(key, Row(row.file, row.line, values))
+    return renamed, list(out.values())
+
+
+def _match_collections(session: Session, rows: list[Row], renamed_repositories: dict[str, str]) -> tuple[dict[str, str], list[Row]]:
+    """Rename each collection row to the stored collection of its key or of its name in its repository."""
+    stored = {key: (repository, name) for key, repository, name in session.execute(
+        select(Collection.key, Repository.key, Collection.name).join(Repository).order_by(Collection.id))}
+    by_name: dict[tuple[str, str], str] = {}
+    for key, (repository, name) in stored.items():
+        by_name.setdefault((repository, _same_name(name)), key)
+    renamed: dict[str, str] = {}
+    out: dict[str, Row] = {}
+    for row in rows:
+        given = row.values["key"]
+        repository = renamed_repositories.get(row.values.get("repository") or "", row.values.get("repository") or "")
+        key = given if given in stored else by_name.get((repository, _same_name(row.values.get("name"))), given)
+        if key != given:
+            renamed[given] = key
+            values = {"key": key, "name": stored[key][1], "repository": stored[key][0]}
+        else:
+            values = dict(row.values, repository=repository)
+        out.setdefault(key, Row(row.file, row.line, values))
+    return renamed, list(out.values())

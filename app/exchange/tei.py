@@ -22,6 +22,7 @@ import re
 from dataclasses import dataclass, field
 
 from lxml import etree
+from sqlalchemy.orm import Session
 
 from app.dates import DateError, interval_or_none
 from app.db import Database
@@ -37,7 +38,7 @@ from app.exchange.workbook import (
 from app.exchange.xmlsafe import local_name, parse_untrusted
 from app.names import fold
 
-__all__ = ["identifier_from_uri", "import_tei", "labelled", "read_tei", "tei_date"]
+__all__ = ["identifier_from_uri", "import_tei", "labelled", "prepare_tei", "read_tei", "tei_date"]
 
 PERSON_ELEMENTS = {"persName": "individual", "orgName": "corporate", "name": "individual"}
 CERTAINTY = {"high": "certain", "medium": "probable", "low": "possible", "unknown": "possible"}
@@ -341,17 +342,28 @@ def _read(data: bytes, name: str) -> tuple[dict[str, list[Row]], list[Problem], 
     return (reader.tables() if not reader.problems else {}), reader.problems, reader.notes
 
 
-def import_tei(database: Database, data: bytes, name: str, *, actor: str = "cli") -> ImportReport:
-    """Import the letters of a TEI file in one transaction; WorkbookError (nothing written) on any problem.
+def prepare_tei(session: Session, data: bytes, name: str) -> tuple[dict[str, list[Row]], list[Problem], list[str]]:
+    """Return the TEI file's rows matched to the stored data (read in ``session``), its problems and notes.
 
     Persons are matched to those already stored by key or by an identifier of their ``ref``;
     a stored person keeps the name it has (the TEI's spelling is added as a variant).
+    Repositories and collections named like stored ones are those (see ``matching``).
     """
     tables, problems, notes = _read(data, name)
     if problems:
-        raise WorkbookError(problems)
+        return {}, problems, notes
+    return match_existing(session, tables), [], notes
+
+
+def import_tei(database: Database, data: bytes, name: str, *, actor: str = "cli") -> ImportReport:
+    """Import the letters of a TEI file in one transaction; WorkbookError (nothing written) on any problem.
+
+    The matching (:func:`prepare_tei`) reads in its own transaction just before the write.
+    """
     with database.read() as session:
-        tables = match_existing(session, tables)
+        tables, problems, notes = prepare_tei(session, data, name)
+    if problems:
+        raise WorkbookError(problems)
     return import_tables(database, tables, name=name, sha256=hashlib.sha256(data).hexdigest(), warnings=notes, actor=actor)
 
 

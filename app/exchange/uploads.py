@@ -1,8 +1,11 @@
-"""Uploaded workbooks kept on the server under a random token until confirmed or expired.
+"""Uploaded workbooks, TEI letters and GraphML graphs kept on the server under a random token until confirmed or expired.
 
-An upload is a folder of the files as sent (CSV files, a .zip, an .xlsx, a mapping .json) and
-a ``meta.json`` (who, when, the SHA-256 of the files, the column mapping chosen). Readers turn
-the files into sheets (to be mapped) or into ready workbook rows; another kind of file plugs in
+An upload is a folder of the files as sent (CSV files, a .zip, an .xlsx, a mapping .json, TEI
+.xml, .graphml) and a ``meta.json`` (who, when, the SHA-256 of the files, the column mapping
+chosen, the options the user gave, such as the source a graph's ties come from). Readers turn
+the files into sheets (to be mapped), into ready workbook rows, or into conversions that match
+their rows to the stored data (TEI persons by their ref/key identifiers, archives by name) in
+one read transaction just before the import's write transaction; another kind of file plugs in
 with :func:`register_reader`. The preview is the real import run in a transaction that is
 rolled back; the confirmation runs it again for real, in one transaction, and is refused when
 the files, the mapping or the data changed since the preview.
@@ -22,9 +25,11 @@ from pathlib import Path, PurePath
 from typing import Any, BinaryIO
 
 from sqlalchemy import select
+from sqlalchemy.orm import Session
 
 from app.db import Database
 from app.exchange.duplicates import Candidate, Suggestion, find_duplicates
+from app.exchange.graphml import DEFAULT_KIND, prepare_graphml
 from app.exchange.mapping import SheetMapping, plans_from_json, suggest_mappings
 from app.exchange.workbook import (
     FILES,
@@ -39,11 +44,14 @@ from app.exchange.workbook import (
     tables_from_sheets,
     zip_members,
 )
+from app.exchange.tei import prepare_tei
 from app.exchange.xlsx import xlsx_sheets
 from app.models import DataVersion, Person, PersonName
 
 __all__ = [
     "EXPIRY_SECONDS",
+    "GRAPH_OPTIONS",
+    "Conversion",
     "Reading",
     "Upload",
     "UploadError",
@@ -61,10 +69,27 @@ class UploadError(Exception):
     """An upload that cannot be used (expired, changed, too large); the message says which and what to do."""
 
 
+Prepared = tuple[dict[str, list[Row]], list[Problem], list[str]]  # rows by workbook file, problems, notes
+
+
+@dataclass(frozen=True)
+class Conversion:
+    """A file of another format whose rows are made, and matched to the stored data, in a read session."""
+
+    file: str
+    prepare: Callable[[Session], Prepared]
+
+
+GRAPH_OPTIONS = ("graphml_source", "graphml_kind")
+"""Upload options of a GraphML file: the source its ties come from (required), the kind of edges naming none."""
+
+
 @dataclass
 class Reading:
     """What the readers made of an upload: sheets still to be mapped, rows already in workbook form."""
 
+    options: dict[str, str] = field(default_factory=dict)  # what the user said of the upload (GRAPH_OPTIONS)
+    conversions: list[Conversion] = field(default_factory=list)
     sheets: list[Sheet] = field(default_factory=list)
     tables: dict[str, Sequence[Row]] = field(default_factory=dict)
     problems: list[Problem] = field(default_factory=list)
@@ -107,10 +132,26 @@ def _read_mapping(path: Path, size_limit: int, reading: Reading) -> None:
         reading.problems.append(Problem(path.name, 0, "(mapping)", str(error)))
 
 
+def _read_tei(path: Path, size_limit: int, reading: Reading) -> None:
+    data, name = path.read_bytes(), path.name
+    reading.conversions.append(Conversion(name, lambda session: prepare_tei(session, data, name)))
+
+
+def _read_graphml(path: Path, size_limit: int, reading: Reading) -> None:
+    data, name = path.read_bytes(), path.name
+    title = reading.options.get("graphml_source", "")  # empty: prepare_graphml asks for it, as a problem
+    kind = reading.options.get("graphml_kind") or DEFAULT_KIND
+    reading.conversions.append(Conversion(name, lambda session: prepare_graphml(
+        session, data, name, source_title=title, kind=kind)))
+
+
 register_reader(".csv", _read_csv)
 register_reader(".zip", _read_zip)
 register_reader(".xlsx", _read_xlsx)
 register_reader(".json", _read_mapping)
+register_reader(".xml", _read_tei)
+register_reader(".graphml", _read_graphml)
+SHEET_SUFFIXES = (".csv", ".zip", ".xlsx")  # the files whose columns the mapping step maps
 
 
 # --- storage -------------------------------------------------------------------------------
@@ -127,17 +168,30 @@ class Upload:
     created: float
     actor: str
     plans: dict[str, SheetPlan] | None = None  # None until the mapping step (or a mapping file) settled it
+    options: dict[str, str] = field(default_factory=dict)  # GRAPH_OPTIONS the user gave
 
     def save(self) -> None:
         meta = {"files": self.files, "sha256": self.sha256, "created": self.created, "actor": self.actor,
-                "plans": None if self.plans is None else {k: p._asdict() for k, p in self.plans.items()}}
+                "plans": None if self.plans is None else {k: p._asdict() for k, p in self.plans.items()},
+                "options": self.options}
         (self.folder / "meta.json").write_text(json.dumps(meta, sort_keys=True))
 
     def fingerprint(self, data_version: int) -> str:
-        """A hash of the files, the mapping and the data version: what a preview was made of."""
+        """A hash of the files, the mapping, the options and the data version: what a preview was made of."""
         plans = {k: p._asdict() for k, p in (self.plans or {}).items()}
-        text = json.dumps([self.sha256, plans, data_version], sort_keys=True)
+        text = json.dumps([self.sha256, plans, self.options, data_version], sort_keys=True)
         return hashlib.sha256(text.encode()).hexdigest()[:32]
+
+    def has_sheets(self) -> bool:
+        """True when some file has columns to map (CSV, .zip, .xlsx)."""
+        return any(Path(name).suffix.lower() in SHEET_SUFFIXES for name in self.files)
+
+    def graph_files(self) -> list[str]:
+        return [name for name in self.files if Path(name).suffix.lower() == ".graphml"]
+
+    def needs_source(self) -> bool:
+        """True while a GraphML file waits for the user to name the source its ties come from."""
+        return bool(self.graph_files()) and not self.options.get("graphml_source", "").strip()
 
     def files_unchanged(self) -> bool:
         return _hash_files(self.folder, self.files) == self.sha256
@@ -152,11 +206,18 @@ def uploads_root(database_url: str) -> Path:
     return Path(tempfile.gettempdir()) / "attesta-uploads"
 
 
-def create_upload(root: Path, files: list[tuple[str, BinaryIO]], *, actor: str, size_limit: int) -> Upload:
+def clean_options(given: dict[str, str]) -> dict[str, str]:
+    """Keep the known upload options that have a value, spaces trimmed."""
+    return {name: value.strip() for name, value in given.items() if name in GRAPH_OPTIONS and value and value.strip()}
+
+
+def create_upload(root: Path, files: list[tuple[str, BinaryIO]], *, actor: str, size_limit: int,
+                  options: dict[str, str] | None = None) -> Upload:
     """Store the uploaded files under a new token; refuse (UploadError) past ``size_limit`` in all, nothing kept."""
     _remove_expired(root)
     if not files:
-        raise UploadError("no file was chosen: choose a .zip, CSV files or an .xlsx workbook")
+        raise UploadError("no file was chosen: choose a .zip, CSV files or an .xlsx workbook, TEI letters (.xml) "
+                          "or a GraphML graph (.graphml)")
     token = secrets.token_urlsafe(18)
     folder = root / token
     folder.mkdir(parents=True)
@@ -182,7 +243,8 @@ def create_upload(root: Path, files: list[tuple[str, BinaryIO]], *, actor: str, 
     except BaseException:
         shutil.rmtree(folder, ignore_errors=True)
         raise
-    upload = Upload(token, folder, names, _hash_files(folder, names), time.time(), actor)
+    upload = Upload(token, folder, names, _hash_files(folder, names), time.time(), actor,
+                    options=clean_options(options or {}))
     upload.save()
     return upload
 
@@ -200,7 +262,8 @@ def get_upload(root: Path, token: str) -> Upload:
         raise UploadError(f"this upload expired (uploads are kept {EXPIRY_SECONDS // 3600} hours); upload the workbook again")
     plans = None if meta["plans"] is None else {k: SheetPlan(p["file"], p["columns"], p.get("fixed") or {})
                                                 for k, p in meta["plans"].items()}
-    return Upload(token, folder, meta["files"], meta["sha256"], meta["created"], meta["actor"], plans)
+    return Upload(token, folder, meta["files"], meta["sha256"], meta["created"], meta["actor"], plans,
+                  meta.get("options") or {})
 
 
 def delete_upload(upload: Upload) -> None:
@@ -240,7 +303,7 @@ def _hash_files(folder: Path, names: list[str]) -> str:
 
 def read_upload(upload: Upload, *, size_limit: int) -> Reading:
     """Read every file of the upload with the reader of its kind."""
-    reading = Reading()
+    reading = Reading(options=dict(upload.options))
     for name in upload.files:
         path = upload.folder / name
         READERS[path.suffix.lower()](path, size_limit, reading)
@@ -252,15 +315,20 @@ def stored_person_keys(database: Database) -> set[str]:
         return set(session.scalars(select(Person.key)))
 
 
+def sheet_person_keys(reading: Reading) -> set[str]:
+    """Person keys of the upload's own persons sheet, to tell an edge list's persons from documents."""
+    keys: set[str] = set()
+    for sheet in reading.sheets:
+        if sheet.name in ("persons.csv", "persons") and "key" in sheet.header:
+            at = sheet.header.index("key")
+            keys.update(record[at] for _, record in sheet.records() if len(record) > at)
+    return keys
+
+
 def mapping_step(upload: Upload, reading: Reading, database: Database) -> list[SheetMapping]:
     """Return the suggestions for every sheet (the upload's own plans and a mapping file win)."""
-    person_keys = stored_person_keys(database)
-    for sheet in reading.sheets:
-        if sheet.name in ("persons.csv", "persons"):
-            person_keys.update(record[sheet.header.index("key")] for _, record in sheet.records()
-                               if "key" in sheet.header and len(record) > sheet.header.index("key"))
     plans = {**reading.plans, **(upload.plans or {})}
-    return suggest_mappings(reading.sheets, person_keys, plans)
+    return suggest_mappings(reading.sheets, stored_person_keys(database) | sheet_person_keys(reading), plans)
 
 
 def needs_mapping(upload: Upload, mappings: list[SheetMapping]) -> bool:
@@ -268,13 +336,47 @@ def needs_mapping(upload: Upload, mappings: list[SheetMapping]) -> bool:
     return upload.plans is None and any(m.reasons for m in mappings)
 
 
-def tables_of(upload: Upload, reading: Reading, mappings: list[SheetMapping]) -> tuple[dict[str, Sequence[Row]], list[str], dict[str, str]]:
-    """Return the workbook rows of the upload, warnings, and the label of each workbook file (for messages)."""
+def convert(reading: Reading, database: Database) -> tuple[dict[str, list[Row]], list[str]]:
+    """Make the rows of the upload's TEI and GraphML files, matched to the stored data in one read session.
+
+    Problems go to ``reading.problems``; the notes (what was left out or assumed) are returned.
+    """
+    tables: dict[str, list[Row]] = {}
+    notes: list[str] = []
+    if not reading.conversions:
+        return tables, notes
+    with database.read() as session:
+        for conversion in reading.conversions:
+            rows, problems, said = conversion.prepare(session)
+            reading.problems.extend(problems)
+            notes += [f"{conversion.file}: {note}" for note in said]
+            for file, found in rows.items():
+                tables.setdefault(file, []).extend(found)
+    return tables, notes
+
+
+def tables_of(upload: Upload, reading: Reading, mappings: list[SheetMapping],
+              database: Database) -> tuple[dict[str, Sequence[Row]], list[str], dict[str, str]]:
+    """Return the workbook rows of the upload, warnings, and the label of each workbook file (for messages).
+
+    The rows of TEI and GraphML files come first (matched just now, see :func:`convert`), then
+    those of readers that give rows, then the mapped sheets.
+    """
     plans = upload.plans if upload.plans is not None else {m.sheet: m.plan for m in mappings if m.file}
     tables, warnings = tables_from_sheets(reading.sheets, reading.problems, plans)
     labels = {file: rows.sheet.label for file, rows in tables.items()}
-    merged: dict[str, Sequence[Row]] = {**reading.tables, **tables}
-    return merged, warnings, labels
+    converted, notes = convert(reading, database)
+    merged: dict[str, Sequence[Row]] = {}
+    for part in (converted, reading.tables, tables):
+        for file, rows in part.items():
+            merged[file] = [*merged[file], *rows] if file in merged else rows
+    return merged, notes + warnings, labels
+
+
+def files_of(tables: dict[str, Sequence[Row]]) -> dict[str, str]:
+    """The workbook file of each row file that is not one (``letters.xml [persons]`` -> ``persons.csv``)."""
+    return {row.file: file for file, rows in tables.items() if isinstance(rows, list) for row in rows
+            if row.file != file}
 
 
 def relabel(problems: list[Problem], labels: dict[str, str]) -> list[Problem]:
@@ -351,12 +453,20 @@ class Preview:
 MAX_DUPLICATES = 500
 
 
-def counts_of(report: ImportReport) -> tuple[dict[str, dict[str, int]], dict[str, dict[str, int]]]:
-    """Return the counts per kind of record and per file of a (dry-run) import report."""
+def counts_of(report: ImportReport, file_of: dict[str, str] | None = None) -> tuple[dict[str, dict[str, int]], dict[str, dict[str, int]]]:
+    """Return the counts per kind of record and per file of a (dry-run) import report.
+
+    ``file_of`` names the workbook file of row files that are not one (the rows of a TEI file).
+    """
     files = {name: {k: int(v) for k, v in c.items()} for name, c in report.rows.items()}
+    by_workbook_file: dict[str, dict[str, int]] = {}
+    for name, c in files.items():
+        total = by_workbook_file.setdefault((file_of or {}).get(name, name), {"added": 0, "changed": 0, "unchanged": 0})
+        for k, v in c.items():
+            total[k] = total.get(k, 0) + v
 
     def of(name: str) -> dict[str, int]:
-        return files.get(name, {"added": 0, "changed": 0, "unchanged": 0})
+        return by_workbook_file.get(name, {"added": 0, "changed": 0, "unchanged": 0})
 
     attestations = {k: sum(of(n)[k] for n in ("relations.csv", "memberships.csv", "facts.csv"))
                     for k in ("added", "changed", "unchanged")}
@@ -369,8 +479,8 @@ def counts_of(report: ImportReport) -> tuple[dict[str, dict[str, int]], dict[str
         "attestations": attestations,
     }
     for name in ("places.csv", "repositories.csv", "collections.csv", "groups.csv", "relation_kinds.csv"):
-        if name in files:
-            counts[name.removesuffix(".csv").replace("_", " ")] = files[name]
+        if name in by_workbook_file:
+            counts[name.removesuffix(".csv").replace("_", " ")] = by_workbook_file[name]
     return counts, files
 
 
@@ -379,7 +489,7 @@ def make_preview(upload: Upload, database: Database, *, size_limit: int, progres
     version = data_version(database)
     reading = read_upload(upload, size_limit=size_limit)
     mappings = mapping_step(upload, reading, database)
-    tables, warnings, labels = tables_of(upload, reading, mappings)
+    tables, warnings, labels = tables_of(upload, reading, mappings, database)
     warnings = reading.warnings + warnings
     problems = list(reading.problems)
     report = ImportReport()
@@ -387,7 +497,8 @@ def make_preview(upload: Upload, database: Database, *, size_limit: int, progres
     rows = sum(len(t) for t in tables.values())
     if not tables and not problems:
         problems.append(Problem(", ".join(upload.files), 0, "(workbook)",
-                                f"no workbook files found; expected some of: {', '.join(FILES)}"))
+                                f"no workbook files found; expected some of: {', '.join(FILES)} "
+                                "(or TEI letters, a GraphML graph)"))
         total_problems = 1
     if not problems:
         try:
@@ -400,7 +511,7 @@ def make_preview(upload: Upload, database: Database, *, size_limit: int, progres
     if not problems:
         new, stored = person_candidates(tables, database)
         duplicates = find_duplicates(new, stored)
-    counts, files = counts_of(report)
+    counts, files = counts_of(report, files_of(tables))
     return Preview(
         fingerprint=upload.fingerprint(version), data_version=version, counts=counts, files=files,
         problems=[p._asdict() for p in relabel(problems, labels)], problem_count=total_problems,
@@ -489,7 +600,7 @@ def confirm_import(upload: Upload, database: Database, *, fingerprint: str, deci
     check_unchanged(upload, database, fingerprint)
     reading = read_upload(upload, size_limit=size_limit)
     mappings = mapping_step(upload, reading, database)
-    tables, warnings, labels = tables_of(upload, reading, mappings)
+    tables, warnings, labels = tables_of(upload, reading, mappings, database)
     if reading.problems:
         raise WorkbookError(relabel(reading.problems, labels))
     tables = apply_decisions(tables, decisions)
@@ -535,6 +646,13 @@ class ImportTasks:
     def get(self, token: str) -> ImportTask | None:
         with self.lock:
             return self.tasks.get(token)
+
+    def forget(self, token: str) -> None:
+        """Drop a finished preview (the upload's options changed); a running task is kept."""
+        with self.lock:
+            task = self.tasks.get(token)
+            if task is not None and task.stage not in ("previewing", "importing", "imported"):
+                del self.tasks[token]
 
     def start(self, token: str, stage: str, work: Callable[[ImportTask, Callable[[int, int], None]], None]) -> ImportTask:
         """Run ``work(task, progress)`` in a thread; a failure is kept as the task's error."""

@@ -25,7 +25,8 @@ from app.network.slice import Slice, resolve_slice
 from app.store.network_labels import get_person_label, list_relation_kinds
 from app.store.summary import get_data_version
 from app.views.common import BadParameter, SessionDep, SliceDep, render, templates, urls_for
-from app.views.redaction import redact_for
+from app.store.privacy import RestrictedPersons
+from app.views.redaction import Redactor, redact_for
 from app.views.slicing import SliceControls, slice_controls
 
 __all__ = ["EgoPanel", "ego_panel", "router"]
@@ -189,11 +190,33 @@ def ego_api(request: Request, key: str, session: SessionDep, slice: SliceDep, ra
     responses={200: {"content": {"image/svg+xml": {}}}},
 )
 def ego_svg(request: Request, key: str, session: SessionDep, slice: SliceDep, radius: str = _RADIUS) -> Response:  # noqa: A002
+    svg, name = ego_download(request, session, slice, key, radius)
+    return Response(svg, media_type="image/svg+xml", headers={"Content-Disposition": f'attachment; filename="{name}.svg"'})
+
+
+def ego_download(request: Request, session: Session, slice: Slice, key: str, radius: str,  # noqa: A002
+                 leave_out: RestrictedPersons | None = None) -> tuple[str, str]:
+    """Return the standalone SVG of an ego drawing, as the viewer may see it, and a file name for it.
+
+    The caption names the person, the radius, the slice and the dataset version (the first 16
+    hex digits of the content hash the export page cites) with the data version; a drawing about a
+    restricted person is refused to a reader (403), as the page is. With ``leave_out`` (the export
+    page's files, for every role unless an admin asks for everyone) those persons read "restricted
+    person" and a drawing centred on one is refused.
+    """
+    from app.views.dataset_version import cached_dataset_version  # snapshot code, needed for downloads only
+
     view = redact_for(request, ego_panel(session=session, person_key=key, slice=slice, radius=_radius(radius)))
+    if leave_out is not None:
+        redactor = Redactor(leave_out)
+        if redactor.is_about_restricted(view):
+            raise HTTPException(403, "This is a restricted person: their ego drawing is exported only when an admin "
+                                     "asks for restricted persons (restricted=include).")
+        view = redactor.redact(view)
+    cited = cached_dataset_version(request, session).sha256
     caption = (f"Ego network of {view.name} ({view.key}), radius {view.radius}. Slice: {view.summary}. "
-               f"Attesta, data version {view.data_version}.")  # fmt: skip
+               f"Attesta, dataset version {cited[:16]} (data version {view.data_version}).")  # fmt: skip
     svg = templates.get_template("ego_download.svg").render(
         page=view, urls=urls_for(request), caption_lines=textwrap.wrap(caption, 120)
     )
-    filename = f"ego-{view.key.replace(':', '_')}-radius{view.radius}.svg"
-    return Response(svg, media_type="image/svg+xml", headers={"Content-Disposition": f'attachment; filename="{filename}"'})
+    return svg, f"ego-{view.key.replace(':', '_')}-radius{view.radius}"

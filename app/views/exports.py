@@ -12,8 +12,7 @@ whatever names them, for every role, unless an admin asks for them with ``restri
 from __future__ import annotations
 
 import json
-import textwrap
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 
 from typing import Annotated
 
@@ -24,11 +23,12 @@ from sqlalchemy.orm import Session
 from app.auth import CsrfChecked, CurrentActor, current_actor
 from app.exchange.csl import csl_items
 from app.exchange.network_export import adjacency_csv, edges_csv, nodes_csv, slice_export, to_graphml
-from app.exchange.snapshot import DatasetVersion, dataset_version, snapshot_bytes
+from app.exchange.snapshot import DatasetVersion, snapshot_bytes
 from app.network.slice import Slice
-from app.views.common import BadParameter, SessionDep, SliceDep, render, templates, urls_for
+from app.views.common import BadParameter, SessionDep, SliceDep, render, urls_for
+from app.views.dataset_version import cached_dataset_version
 from app.store.privacy import RestrictedPersons
-from app.views.ego import _radius, ego_panel
+from app.views.ego import ego_download
 from app.views.redaction import Redactor, restricted_persons
 
 __all__ = ["router"]
@@ -97,6 +97,14 @@ class ExportPage:
     """True for an admin, who may ask for the restricted persons."""
     include_action: str = ""
     """The export page itself, where the admin's choice is made."""
+    drawing_svg: str = ""
+    """Where the drawing form sends for an ego drawing as SVG (person and radius as form fields)."""
+    drawing_png: str = ""
+    """The same, as PNG."""
+    slice_fields: list[tuple[str, str]] = field(default_factory=list)
+    """The slice (and the restricted-persons choice) as (name, value) pairs, carried by the drawing form."""
+    person: str | None = None
+    """The person whose ego drawing the form offers first (the page's ``person`` parameter)."""
 
 
 def export_links(request: Request, slice_: Slice, restricted: str = "leave-out") -> list[ExportLink]:
@@ -113,45 +121,38 @@ def export_links(request: Request, slice_: Slice, restricted: str = "leave-out")
     ]
 
 
-def _version(request: Request, session: Session) -> DatasetVersion:
-    """The dataset version, kept per data version so the page does not rehash an unchanged dataset."""
-    from app.store.summary import get_data_version
-
-    cache = getattr(request.app.state, "dataset_versions", None)
-    if cache is None:
-        cache = request.app.state.dataset_versions = {}
-    current = get_data_version(session=session)
-    if current not in cache:
-        cache.clear()
-        cache[current] = dataset_version(session)
-    return cache[current]
-
-
-def export_view(request: Request, session: Session, slice_: Slice, leave_out: RestrictedPersons | None) -> ExportPage:
+def export_view(request: Request, session: Session, slice_: Slice, leave_out: RestrictedPersons | None,
+                person: str | None = None) -> ExportPage:
     restricted = "include" if request.query_params.get("restricted") == "include" else "leave-out"  # checked by left_out
     extra = {"restricted": "include"} if restricted == "include" else {}
     urls = urls_for(request)
-    return ExportPage(slice=slice_, slice_summary=slice_.describe(), version=_version(request, session),
+    return ExportPage(slice=slice_, slice_summary=slice_.describe(), version=cached_dataset_version(request, session),
                       files=export_links(request, slice_, restricted),
                       snapshot_action=urls.export("snapshot", slice_, **extra), restricted=restricted,
                       restricted_count=len(restricted_persons(request).ids),
-                      may_include=current_actor(request).can("admin"), include_action=urls.export("", slice_))
+                      may_include=current_actor(request).can("admin"), include_action=urls.export("", slice_),
+                      drawing_svg=urls.export("ego.svg"), drawing_png=urls.export("ego.png"),
+                      slice_fields=slice_.to_query() + list(extra.items()), person=(person or "").strip() or None)
 
 
+_PERSON = Query(None, description="A person key: the drawing form offers this person's ego drawing.")
 _SLICE = " The slice is given by the query string, as on every network page."
 
 
 @router.get("/export", response_class=HTMLResponse, summary="Exports and the dataset version (page)",
             description="The content hash and counts of the dataset (cite it as 'dataset version <hash>'), the files "
-                        "of the slice to download and the snapshot button." + _SLICE)
-def export_page(request: Request, session: SessionDep, slice_: SliceDep, leave_out: LeftOut) -> Response:
-    return render(request, export_view(request, session, slice_, leave_out), template="export.html")
+                        "of the slice to download, a form for a person's ego drawing as SVG or PNG, and the snapshot "
+                        "button." + _SLICE)
+def export_page(request: Request, session: SessionDep, slice_: SliceDep, leave_out: LeftOut,
+                person: str | None = _PERSON) -> Response:
+    return render(request, export_view(request, session, slice_, leave_out, person), template="export.html")
 
 
 @router.get("/api/export", response_model=ExportPage, summary="Exports and the dataset version (JSON)",
             description="The JSON twin of `/export`: content hash, counts and the download links." + _SLICE)
-def export_api(request: Request, session: SessionDep, slice_: SliceDep, leave_out: LeftOut) -> Response:
-    return render(request, export_view(request, session, slice_, leave_out), template="export.html")
+def export_api(request: Request, session: SessionDep, slice_: SliceDep, leave_out: LeftOut,
+                person: str | None = _PERSON) -> Response:
+    return render(request, export_view(request, session, slice_, leave_out, person), template="export.html")
 
 
 def _download(data: bytes | str, media_type: str, filename: str) -> Response:
@@ -190,7 +191,10 @@ def export_matrix(session: SessionDep, slice_: SliceDep, leave_out: LeftOut) -> 
                         "publisher and issued." + _SLICE)
 def export_sources(session: SessionDep, slice_: SliceDep, leave_out: LeftOut) -> Response:
     keys = {k for e in slice_export(session, slice_, leave_out=leave_out).edges for k in e.source_keys}
-    return _download(json.dumps(csl_items(session, keys=keys), indent=2, ensure_ascii=False),
+    items = csl_items(session, keys=keys)
+    if leave_out is not None:  # a restricted person's name in a title or as an author
+        items = Redactor(leave_out).redact(items)
+    return _download(json.dumps(items, indent=2, ensure_ascii=False),
                      "application/vnd.citationstyles.csl+json", "slice-sources.json")
 
 
@@ -237,23 +241,8 @@ def export_ego_png(request: Request, session: SessionDep, slice_: SliceDep, leav
 
 def ego_svg_text(request: Request, session: Session, slice_: Slice, person: str, radius: str,
                  leave_out: RestrictedPersons | None = None) -> tuple[str, str]:
-    """Return the standalone SVG of an ego drawing, with its caption, and a file name for it.
-
-    With ``leave_out``, restricted persons in the drawing read "restricted person" (as readers see
-    them on the pages), and a drawing centred on one is refused with 403.
-    """
-    view = ego_panel(session=session, person_key=person, slice=slice_, radius=_radius(radius))
-    if leave_out is not None:
-        redactor = Redactor(leave_out)
-        if redactor.is_about_restricted(view):
-            raise HTTPException(403, "This is a restricted person: their ego drawing is exported only when an admin "
-                                     "asks for restricted persons (restricted=include).")
-        view = redactor.redact(view)
-    caption = (f"Ego network of {view.name} ({view.key}), radius {view.radius}. Slice: {view.summary}. "
-               f"Attesta, data version {view.data_version}.")
-    svg = templates.get_template("ego_download.svg").render(page=view, urls=urls_for(request),
-                                                            caption_lines=textwrap.wrap(caption, 120))
-    return svg, f"ego-{view.key.replace(':', '_')}-radius{view.radius}"
+    """Return the standalone SVG of an ego drawing, with its caption, and a file name for it."""
+    return ego_download(request, session, slice_, person, radius, leave_out)
 
 
 @router.post("/export/snapshot", response_class=Response, summary="Make a citable snapshot (.zip)",

@@ -1,4 +1,8 @@
-"""The import pages: upload a workbook, map its columns, look at the preview, confirm (editors and admins).
+"""The import pages: upload a workbook, TEI letters or a GraphML graph, map, look at the preview, confirm.
+
+For editors and admins. A GraphML upload first asks for the source its ties come from; a
+workbook's sheets may need the mapping step; then every kind has the same preview and the
+same all-or-nothing confirmation.
 
 Only the confirmation writes. The preview and the import run in a thread of the server
 process (``ImportTasks``), which the page follows by polling its progress route with htmx.
@@ -9,13 +13,14 @@ from __future__ import annotations
 from dataclasses import dataclass, field
 from typing import Annotated
 
-from fastapi import APIRouter, File, HTTPException, Request, UploadFile
+from fastapi import APIRouter, File, Form, HTTPException, Request, UploadFile
 from fastapi.responses import HTMLResponse, JSONResponse, RedirectResponse, Response
 
 from app.auth import CsrfChecked, EditorActor
 from app.exchange.mapping import SheetMapping, mapping_json
 from app.exchange.uploads import (
     DECISIONS,
+    GRAPH_OPTIONS,
     ImportTask,
     ImportTasks,
     Upload,
@@ -31,7 +36,9 @@ from app.exchange.uploads import (
     uploads_root,
     Decision,
     check_unchanged,
+    clean_options,
 )
+from app.exchange.graphml import DEFAULT_KIND
 from app.exchange.workbook import FILES, SheetPlan
 from app.views.common import BadParameter, is_api_request, render, urls_for
 
@@ -53,6 +60,8 @@ class ImportStartPage:
     """The kinds of file accepted."""
     workbook_files: dict[str, list[str]]
     """Each workbook file and its columns."""
+    default_kind: str
+    """The relation kind of GraphML edges that name none."""
 
 
 @dataclass
@@ -75,6 +84,16 @@ class ImportPage:
     """The preview or import: progress, preview, result or error."""
     all_columns: list[str] = field(default_factory=list)
     """Every workbook column, for a sheet whose file is not chosen yet."""
+    graph_files: list[str] = field(default_factory=list)
+    """The GraphML files of the upload, whose ties need a source the user names."""
+    graphml_source: str = ""
+    """The source the graph's ties come from, as the user named it."""
+    graphml_kind: str = ""
+    """The relation kind of edges that name none (empty: the default kind)."""
+    has_sheets: bool = False
+    """True when some file has columns to map (CSV, .zip, .xlsx)."""
+    default_kind: str = DEFAULT_KIND
+    """The relation kind of edges that name none when the user gives no other."""
 
 
 def _root(request: Request):  # noqa: ANN202
@@ -109,30 +128,41 @@ def _start_preview(request: Request, upload: Upload) -> None:
     _tasks(request).start(upload.token, "previewing", work)
 
 
+def _page(upload: Upload, stage: str, **more) -> ImportPage:  # noqa: ANN003
+    return ImportPage(token=upload.token, stage=stage, files=upload.files, graph_files=upload.graph_files(),
+                      graphml_source=upload.options.get("graphml_source", ""),
+                      graphml_kind=upload.options.get("graphml_kind", ""), has_sheets=upload.has_sheets(), **more)
+
+
 def import_page_view(request: Request, token: str, step: str | None = None) -> ImportPage:
     """Return the state of one upload, starting its preview when nothing runs for it yet."""
     task = _tasks(request).get(token)
     if task is not None and task.stage in ("importing", "imported"):
         return ImportPage(token=token, stage=task.stage, files=[], task=task)
     upload = _upload_or_error(request, token)
-    if step not in (None, "", "mapping"):
-        raise BadParameter("step", step, "mapping (show the mapping step again)")
+    if step not in (None, "", "mapping", "source"):
+        raise BadParameter("step", step, "mapping (show the mapping step again), source (name the graph's source again)")
+    if step == "source" or (task is None and upload.needs_source()):
+        if not upload.graph_files():
+            raise BadParameter("step", step, "mapping (this upload holds no GraphML file)")
+        return _page(upload, "source")
     if task is None or step == "mapping":
         database = request.app.state.database
         reading = read_upload(upload, size_limit=_limit(request))
         mappings = mapping_step(upload, reading, database)
         if step == "mapping" or (needs_mapping(upload, mappings) and not reading.problems):
-            return ImportPage(token=token, stage="mapping", files=upload.files, mappings=mappings,
-                              fields={name: list(spec.columns) for name, spec in FILES.items()},
-                              all_columns=sorted({c for spec in FILES.values() for c in spec.columns}))
+            return _page(upload, "mapping", mappings=mappings,
+                         fields={name: list(spec.columns) for name, spec in FILES.items()},
+                         all_columns=sorted({c for spec in FILES.values() for c in spec.columns}))
         _start_preview(request, upload)
         task = _tasks(request).get(token)
-    return ImportPage(token=token, stage=task.stage, files=upload.files, task=task)
+    return _page(upload, task.stage, task=task)
 
 
-_START = ("The upload form of workbooks, for editors and admins: a .zip of CSV files, several CSV files, or an "
-          ".xlsx workbook whose sheets are named like the files, and optionally a column mapping (.json) saved "
-          "from an earlier upload. Nothing is written before the preview is confirmed.")
+_START = ("The upload form, for editors and admins: a workbook (a .zip of CSV files, several CSV files, or an "
+          ".xlsx workbook whose sheets are named like the files, and optionally a column mapping .json saved "
+          "from an earlier upload), TEI P5 files of letters (.xml, with correspDesc) or a GraphML graph "
+          "(.graphml, with the source its ties come from). Nothing is written before the preview is confirmed.")
 
 
 @router.get("/api/import", response_model=ImportStartPage, summary="Import a workbook: the upload form (JSON)",
@@ -140,13 +170,18 @@ _START = ("The upload form of workbooks, for editors and admins: a .zip of CSV f
 @router.get("/import", response_class=HTMLResponse, summary="Import a workbook: the upload form (page)",
             description=_START + " The same in JSON: `/api/import`.")
 def import_start(request: Request, actor: EditorActor) -> Response:  # noqa: ARG001
-    view = ImportStartPage(limit_mb=round(_limit(request) / 1024 / 1024), accepted=[".zip", ".csv", ".xlsx", ".json (a column mapping)"],
-                           workbook_files={name: list(spec.columns) for name, spec in FILES.items()})
+    view = ImportStartPage(limit_mb=round(_limit(request) / 1024 / 1024),
+                           accepted=[".zip", ".csv", ".xlsx", ".json (a column mapping)", ".xml (TEI letters)",
+                                     ".graphml (a GraphML graph)"],
+                           workbook_files={name: list(spec.columns) for name, spec in FILES.items()},
+                           default_kind=DEFAULT_KIND)
     return render(request, view, template="import.html")
 
 
 _UPLOAD = ("Store the uploaded files on the server under a random token (kept 2 hours) and go to the upload's "
-           "page, which shows the mapping step when some sheet or column is not recognised, else the preview. "
+           "page, which asks for the source of a GraphML graph's ties when the form field `graphml_source` was "
+           "left empty (`graphml_kind`: the relation kind of edges that name none, `tie` when empty), shows the "
+           "mapping step when some sheet or column is not recognised, else the preview. "
            "An upload over the size limit is refused while it streams in, and nothing is kept.")
 
 
@@ -154,10 +189,13 @@ _UPLOAD = ("Store the uploaded files on the server under a random token (kept 2 
              description=_UPLOAD + " Answers with a redirect to `/import/{token}`.")
 @router.post("/api/import", summary="Upload a workbook (JSON)", description=_UPLOAD + " Answers `{token, url}`.")
 def import_upload(request: Request, actor: EditorActor, _: CsrfChecked,
-                  files: Annotated[list[UploadFile], File(description="The workbook's files")]) -> Response:
+                  files: Annotated[list[UploadFile], File(description="The workbook's files, TEI or GraphML files")],
+                  graphml_source: Annotated[str, Form(description="The source a GraphML graph's ties come from")] = "",
+                  graphml_kind: Annotated[str, Form(description="The relation kind of edges naming none")] = "") -> Response:
     try:
         upload = create_upload(_root(request), [(f.filename or "", f.file) for f in files if f.filename],
-                               actor=actor.name, size_limit=_limit(request))
+                               actor=actor.name, size_limit=_limit(request),
+                               options={"graphml_source": graphml_source, "graphml_kind": graphml_kind})
     except UploadError as error:
         raise HTTPException(413 if "size limit" in str(error) else 400, str(error)) from error
     url = urls_for(request).import_upload(upload.token)
@@ -166,11 +204,12 @@ def import_upload(request: Request, actor: EditorActor, _: CsrfChecked,
     return RedirectResponse(url, status_code=303)
 
 
-_PAGE = ("One upload: the mapping step (which workbook file each sheet is and which field each column is; an edge "
+_PAGE = ("One upload: for a GraphML graph, the question of the source its ties come from; the mapping step (which workbook file each sheet is and which field each column is; an edge "
          "list's source and target are recognised and asked about), then the preview: what a confirmation would "
          "add, change and leave as it is, every problem with its file, line, column and reason, and likely "
          "duplicate persons to confirm as the same, keep apart, or link as possibly the same. While a preview or "
-         "an import runs, the page shows its progress. A token that was imported, expired or never made is a 410.")
+         "an import runs, the page shows its progress. A token that was imported, expired or never made is a 410. "
+         "`?step=mapping` shows the mapping step again, `?step=source` the question of the graph's source.")
 
 
 @router.get("/api/import/{token}", response_model=ImportPage, summary="One upload (JSON)",
@@ -239,6 +278,39 @@ async def import_mapping(request: Request, token: str, actor: EditorActor, _: Cs
     task = _tasks(request).get(token)
     if task is None or task.stage not in ("previewing", "importing"):
         _start_preview(request, upload)
+    url = urls_for(request).import_upload(token)
+    if is_api_request(request):
+        return JSONResponse({"token": token, "url": url})
+    return RedirectResponse(url, status_code=303)
+
+
+_SOURCE = ("Name the source a GraphML upload's ties come from (form field `graphml_source`, required: for example "
+           "\"graph received from a colleague, file X\"; every edge becomes an attestation of that one source) and "
+           "optionally `graphml_kind`, the relation kind of edges that name none (`tie` when empty; a field left out "
+           "keeps the value it had); then the upload's page goes on to the preview.")
+
+
+@router.post("/import/{token}/source", response_class=RedirectResponse, status_code=303,
+             summary="Name the source of a GraphML upload (form)", description=_SOURCE + " Redirects to `/import/{token}`.")
+@router.post("/api/import/{token}/source", summary="Name the source of a GraphML upload (JSON)",
+             description=_SOURCE + " Answers `{token, url}`.")
+async def import_source(request: Request, token: str, actor: EditorActor, _: CsrfChecked) -> Response:  # noqa: ARG001
+    upload = _upload_or_error(request, token)
+    if not upload.graph_files():
+        raise HTTPException(400, "this upload holds no GraphML file, so there is no source to name")
+    form = await request.form()
+    given = dict(upload.options)  # a field left out of the form keeps its value, an empty one is cleared
+    given.update({name: value for name in GRAPH_OPTIONS if isinstance(value := form.get(name), str)})
+    options = clean_options(given)
+    if "graphml_source" not in options:
+        raise HTTPException(400, "graphml_source is required: name the source the graph's ties come from, "
+                                 "for example 'graph received from a colleague, file X'")
+    running = _tasks(request).get(token)
+    if running is not None and running.stage in ("previewing", "importing"):
+        raise HTTPException(409, "a preview or an import of this upload is running; wait for it, then change the source")
+    upload.options = options
+    upload.save()
+    _tasks(request).forget(token)  # the next visit makes a new preview with this source
     url = urls_for(request).import_upload(token)
     if is_api_request(request):
         return JSONResponse({"token": token, "url": url})

@@ -18,29 +18,20 @@ from pathlib import Path
 import networkx as nx
 import pytest
 from lxml import etree
-from playwright.sync_api import Browser, Page, expect, sync_playwright
+from playwright.sync_api import Browser, Page, expect
 
 from app.config import database_url
 from app.exchange.workbook import import_workbook
 from app.network.results import get_or_compute
 from app.network.slice import Slice
-from conftest import ARTIFACTS, chromium_path
+from conftest import ARTIFACTS, open_page
 from helpers import running_server
-from test_browser_home import CHROMIUM_ARGS, open_page
 from tests.test_graphml import graphml_schema
 from tests.test_snapshot import csl_schema
 from tests.workbooks import small_world, write_workbook
 
 pytestmark = pytest.mark.browser
 SVG = "{http://www.w3.org/2000/svg}"
-
-
-@pytest.fixture(scope="module")
-def browser():
-    with sync_playwright() as playwright:
-        chromium = playwright.chromium.launch(executable_path=chromium_path(), args=CHROMIUM_ARGS)
-        yield chromium
-        chromium.close()
 
 
 def download(page: Page, click, folder: Path) -> tuple[str, bytes]:  # noqa: ANN001

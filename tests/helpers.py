@@ -59,15 +59,22 @@ def running_server(db_url: str, *, env: dict[str, str] | None = None, timeout: f
     ] if workers == 1 else [
         sys.executable, "-m", "app.cli", "serve", "--db", db_url, "--port", str(port), "--workers", str(workers),
     ]  # fmt: skip
+    with served(command, base_url, environment, timeout=timeout):
+        yield base_url
+
+
+@contextmanager
+def served(command: list[str], base_url: str, environment: dict[str, str], *, timeout: float) -> Iterator[None]:
+    """Run a server ``command``, wait until ``base_url`` answers (its output in the error if not), then stop it."""
     with tempfile.TemporaryFile() as output:
         server = subprocess.Popen(command, cwd=ROOT, env=environment, stdout=output, stderr=subprocess.STDOUT)
         try:
             _wait_until_answering(server, base_url, timeout, output)
-            yield base_url
+            yield
         finally:
             server.terminate()
             try:
-                server.wait(timeout=10)
+                server.wait(timeout=15)
             except subprocess.TimeoutExpired:
                 server.kill()
                 server.wait()

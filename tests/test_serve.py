@@ -6,7 +6,6 @@ import contextlib
 import os
 import subprocess
 import sys
-import tempfile
 from collections.abc import Iterator
 
 import httpx
@@ -14,7 +13,7 @@ import pytest
 
 from app.db import Database
 from app.network.jobs import Worker, worker_lock_path
-from tests.helpers import ROOT, _wait_until_answering, free_port
+from tests.helpers import ROOT, free_port, served
 
 FORGED = {"X-Forwarded-For": "192.0.2.7", "X-Forwarded-Proto": "https", "X-Forwarded-Host": "evil.example"}
 
@@ -26,18 +25,8 @@ def attesta_serve(db_path, *args: str, env: dict[str, str] | None = None) -> Ite
     base_url = f"http://127.0.0.1:{port}"
     environment = {k: v for k, v in os.environ.items() if not k.startswith("ATTESTA_")} | (env or {})
     command = [sys.executable, "-m", "app.cli", "serve", "--db", str(db_path), "--port", str(port), *args]
-    with tempfile.TemporaryFile() as output:
-        server = subprocess.Popen(command, cwd=ROOT, env=environment, stdout=output, stderr=subprocess.STDOUT)
-        try:
-            _wait_until_answering(server, base_url, 120, output)  # several processes start slowly on a busy machine
-            yield base_url
-        finally:
-            server.terminate()
-            try:
-                server.wait(timeout=15)
-            except subprocess.TimeoutExpired:
-                server.kill()
-                server.wait()
+    with served(command, base_url, environment, timeout=120):  # several processes start slowly on a busy machine
+        yield base_url
 
 
 def _secure_cookie(response: httpx.Response) -> bool:

@@ -239,6 +239,14 @@ def import_progress(request: Request, token: str, actor: EditorActor) -> Respons
     return render(request, view, template="import_upload.html", partial="_import_status.html", headers=headers)
 
 
+def _to_upload_page(request: Request, token: str) -> Response:
+    """Answer a step of an upload: its page (a redirect), or ``{token, url}`` for the JSON twin."""
+    url = urls_for(request).import_upload(token)
+    if is_api_request(request):
+        return JSONResponse({"token": token, "url": url})
+    return RedirectResponse(url, status_code=303)
+
+
 _MAPPING = ("Save the mapping step's choices for one upload: form fields `file:{sheet}` (a workbook file, or "
             "empty to leave the sheet out), `column:{sheet}:{column}` (a workbook column, or empty to leave it "
             "out) and `fixed:{sheet}:{column}` (a value for every row), then start the preview.")
@@ -278,10 +286,7 @@ async def import_mapping(request: Request, token: str, actor: EditorActor, _: Cs
     task = _tasks(request).get(token)
     if task is None or task.stage not in ("previewing", "importing"):
         _start_preview(request, upload)
-    url = urls_for(request).import_upload(token)
-    if is_api_request(request):
-        return JSONResponse({"token": token, "url": url})
-    return RedirectResponse(url, status_code=303)
+    return _to_upload_page(request, token)
 
 
 _SOURCE = ("Name the source a GraphML upload's ties come from (form field `graphml_source`, required: for example "
@@ -311,10 +316,7 @@ async def import_source(request: Request, token: str, actor: EditorActor, _: Csr
     upload.options = options
     upload.save()
     _tasks(request).forget(token)  # the next visit makes a new preview with this source
-    url = urls_for(request).import_upload(token)
-    if is_api_request(request):
-        return JSONResponse({"token": token, "url": url})
-    return RedirectResponse(url, status_code=303)
+    return _to_upload_page(request, token)
 
 
 _MAPPING_FILE = ("The column mapping of one upload as a small JSON file, to upload again beside the next workbook "

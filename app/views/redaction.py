@@ -42,18 +42,38 @@ RESTRICTED_PAGE = ("This is a restricted person (recorded as living, or born too
                    "facts and evidence are shown to editors only. Elsewhere they appear as \"restricted person\".")
 
 
+TEXTS_KEPT = 50_000
+"""Texts whose redacted form a Redactor remembers: labels, kinds and names recur on every page."""
+
+
 class Redactor:
     """Rewrites view-models for a viewer who may not see ``restricted``."""
 
     def __init__(self, restricted: RestrictedPersons):
         self.restricted = restricted
         self.keys = restricted.keys
+        self._texts: dict[str, str] = {}
+        self._fields: dict[type, tuple[str, ...] | None] = {}
 
     # -- text -----------------------------------------------------------------------------------
 
     def text(self, value: str) -> str:
         """Return ``value`` with restricted keys and names replaced."""
-        return self.restricted.hide_in(value)
+        found = self._texts.get(value)
+        if found is None:
+            if len(self._texts) >= TEXTS_KEPT:
+                self._texts.clear()
+            found = self._texts[value] = self.restricted.hide_in(value)
+        return value if found == value else found  # unchanged: the very object, so nothing is copied
+
+    def _field_names(self, kind: type) -> tuple[str, ...] | None:
+        """The field names of a dataclass type, None for any other type (looked up once per type)."""
+        try:
+            return self._fields[kind]
+        except KeyError:
+            names = tuple(f.name for f in dataclasses.fields(kind)) if dataclasses.is_dataclass(kind) else None
+            self._fields[kind] = names
+            return names
 
     # -- structures -----------------------------------------------------------------------------
 
@@ -70,7 +90,7 @@ class Redactor:
         return any(self._is_restricted(getattr(view, field.name)) for field in dataclasses.fields(view))
 
     def _is_restricted(self, value: Any) -> bool:
-        if not dataclasses.is_dataclass(value) or isinstance(value, type):
+        if isinstance(value, type) or self._field_names(type(value)) is None:
             return False
         key = getattr(value, "key", None)
         if isinstance(key, str) and key in self.keys and any(hasattr(value, f) for f in NAME_FIELDS):
@@ -85,26 +105,27 @@ class Redactor:
             return new, False
         if isinstance(value, (bool, int, float, date, datetime)) or value is None:
             return value, False
-        if dataclasses.is_dataclass(value) and not isinstance(value, type):
+        names = None if isinstance(value, type) else self._field_names(type(value))
+        if names is not None:
             if self._is_restricted(value):
                 return self._blank_person(value), True
             changes: dict[str, Any] = {}
             holds = False
-            for field in dataclasses.fields(value):
-                old = getattr(value, field.name)
+            for name in names:
+                old = getattr(value, name)
                 new, restricted = self._walk(old)
                 # a field that is a restricted person makes this a record about them; a list of
                 # persons (members, alters, rows) does not
                 holds = holds or (restricted and not isinstance(old, (list, tuple, set, frozenset, dict)))
                 if new is not old:
-                    changes[field.name] = new
+                    changes[name] = new
             if holds:  # a record about a restricted person: its evidence goes, down to its attestations
-                for field in dataclasses.fields(value):
-                    current = changes.get(field.name, getattr(value, field.name))
-                    if _says_something(field.name):
-                        changes[field.name] = self._blank_value(current)
-                    elif field.name == "attestations" or dataclasses.is_dataclass(current) or isinstance(current, list):
-                        changes[field.name] = self._blank_evidence(current)
+                for name in names:
+                    current = changes.get(name, getattr(value, name))
+                    if _says_something(name):
+                        changes[name] = self._blank_value(current)
+                    elif name == "attestations" or dataclasses.is_dataclass(current) or isinstance(current, list):
+                        changes[name] = self._blank_evidence(current)
             return (self._replace(value, changes) if changes else value), False
         if isinstance(value, dict):
             items = [(self._walk(k)[0], self._walk(v)[0]) for k, v in value.items()]
@@ -196,7 +217,10 @@ def restricted_persons(request: Request) -> RestrictedPersons:
         key = (version, today, settings.living_years)
         cached = getattr(state, "restricted_persons", None)
         if cached is None or cached[0] != key:
-            cached = (key, list_restricted_persons(session=session, living_years=settings.living_years, today=today))
+            found = list_restricted_persons(session=session, living_years=settings.living_years, today=today)
+            if cached is not None and cached[1] == found:
+                found = cached[1]  # most writes touch no restricted person: keep its compiled pattern and redactor
+            cached = (key, found)
             state.restricted_persons = cached
     return cached[1]
 

@@ -29,6 +29,7 @@ from fastapi import HTTPException, Request
 from app.auth import current_actor, visibility_of
 from app.store.privacy import RESTRICTED_KEY, RESTRICTED_NAME, RestrictedPersons, list_restricted_persons
 from app.store.summary import get_data_version
+from app.views.common import request_session
 
 __all__ = ["RESTRICTED_KEY", "RESTRICTED_NAME", "Redactor", "redact_for", "restricted_for", "restricted_persons"]
 
@@ -210,18 +211,24 @@ def restricted_for(request: Request) -> RestrictedPersons | None:
 def restricted_persons(request: Request) -> RestrictedPersons:
     """Return the restricted persons of the dataset today (kept per data version), whoever asks."""
     state = request.app.state
-    settings = state.settings
     today = date.today()
+    session = request_session(request)
+    if session is not None:  # the page's own transaction: the persons restricted in what it read
+        return _restricted_at(state, session, today)
     with state.database.read() as session:
-        version = get_data_version(session=session)
-        key = (version, today, settings.living_years)
-        cached = getattr(state, "restricted_persons", None)
-        if cached is None or cached[0] != key:
-            found = list_restricted_persons(session=session, living_years=settings.living_years, today=today)
-            if cached is not None and cached[1] == found:
-                found = cached[1]  # most writes touch no restricted person: keep its compiled pattern and redactor
-            cached = (key, found)
-            state.restricted_persons = cached
+        return _restricted_at(state, session, today)
+
+
+def _restricted_at(state: Any, session: Any, today: date) -> RestrictedPersons:
+    living_years = state.settings.living_years
+    key = (get_data_version(session=session), today, living_years)
+    cached = getattr(state, "restricted_persons", None)
+    if cached is None or cached[0] != key:
+        found = list_restricted_persons(session=session, living_years=living_years, today=today)
+        if cached is not None and cached[1] == found:
+            found = cached[1]  # most writes touch no restricted person: keep its compiled pattern and redactor
+        cached = (key, found)
+        state.restricted_persons = cached
     return cached[1]
 
 

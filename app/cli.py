@@ -428,6 +428,7 @@ def serve(database: str | None, host: str, port: int, workers: int) -> None:
     import uvicorn
 
     from app.main import create_app
+    from app.serving import prepare_routes
 
     settings, db = _open(database)
     check_schema(db)
@@ -443,7 +444,7 @@ def serve(database: str | None, host: str, port: int, workers: int) -> None:
                + (f" with {workers} server processes" if workers > 1 else ""))
     options = uvicorn_options(settings)
     if workers == 1:
-        uvicorn.run(create_app(replace(settings, server_processes=1)), host=host, port=port, **options)
+        uvicorn.run(prepare_routes(create_app(replace(settings, server_processes=1))), host=host, port=port, **options)
     else:  # each process builds its app from the environment set above
         uvicorn.run("app.main:app_from_env", factory=True, host=host, port=port, workers=workers, **options)
 

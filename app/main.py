@@ -23,6 +23,7 @@ from app.config import Settings
 from app.db import Database, DatabaseError, check_schema
 from app.network.jobs import Worker
 from app.network.slice import SliceError
+from app.serving import SpreadConnections, prepare_routes
 from app.views import audit as audit_views
 from app.views import accounts as accounts_views
 from app.views import ego as ego_views
@@ -105,6 +106,8 @@ def create_app(settings: Settings) -> FastAPI:
     app.include_router(twomode_views.router)
     app.include_router(import_views.router)
     app.add_middleware(import_views.UploadLimit, limit=settings.upload_limit_bytes)
+    if settings.server_processes > 1:  # outermost: a busy process hands the client's next request to another
+        app.add_middleware(SpreadConnections)
     app.include_router(export_views.router)
 
     app.add_exception_handler(StarletteHTTPException, _http_error)
@@ -115,8 +118,8 @@ def create_app(settings: Settings) -> FastAPI:
 
 
 def app_from_env() -> FastAPI:
-    """Return the app configured from ``ATTESTA_*`` environment variables (a uvicorn factory)."""
-    return create_app(Settings.from_env())
+    """Return the app configured from ``ATTESTA_*`` environment variables (a uvicorn factory), ready to serve."""
+    return prepare_routes(create_app(Settings.from_env()))
 
 
 def _http_error(request: Request, exc: StarletteHTTPException) -> Response:

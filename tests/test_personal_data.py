@@ -208,3 +208,37 @@ def test_the_slice_files_leave_restricted_persons_out_and_stay_valid(world):
     assert whole.status_code == 200
     with zipfile.ZipFile(io.BytesIO(whole.content)) as archive:
         assert not any("Zorwald" in archive.read(name).decode() for name in archive.namelist())
+
+
+def test_the_redactor_remembers_texts_without_changing_what_it_leaves_or_hides():
+    from app.store.persons import PersonRef
+    from app.store.privacy import RestrictedPersons
+    from app.views.redaction import Redactor
+
+    restricted = RestrictedPersons(frozenset({7}), frozenset({"p-zorwald"}), ("Zorwald Quill",))
+    redactor = Redactor(restricted)
+    note = "letter to Zorwald Quill (p-zorwald)"
+    for _ in range(2):  # the second time from what it remembers
+        assert redactor.text("".join(note)) == "letter to restricted person (restricted)"
+    # a view with nothing to hide comes back as the very object, even when its texts are equal copies of
+    # texts seen before (an equal copy is not taken for a change, so nothing is copied)
+    seen = [PersonRef(key="p-anna", name="Anna Vell", kind="individual", unidentified=False)]
+    assert redactor.redact(seen) is seen
+    again = [PersonRef(key="".join(["p-", "anna"]), name=" ".join(["Anna", "Vell"]), kind="individual", unidentified=False)]
+    assert redactor.redact(again) is again
+    hidden = redactor.redact([*again, PersonRef(key="p-zorwald", name="Zorwald Quill", kind="individual", unidentified=False)])
+    assert [(ref.key, ref.name) for ref in hidden] == [("p-anna", "Anna Vell"), ("restricted", "restricted person")]
+
+
+def test_a_write_that_changes_no_restricted_person_keeps_the_redactor(world):  # the last test: it adds a person
+    database, reader, editor = world
+    app = reader.app
+    assert leaks(reader.get("/persons/p-anna").text) == []
+    before = app.state.restricted_persons
+    token = editor.get("/new/person").text.split('name="csrf_token" value="', 1)[1].split('"', 1)[0]
+    assert editor.post("/new/person", data={"csrf_token": token, "key": "p-newcomer", "name": "Newcomer Fenn"},
+                       follow_redirects=False).status_code == 303
+    assert leaks(reader.get("/persons/p-anna").text) == []
+    after = app.state.restricted_persons
+    assert after[0] != before[0]  # looked up again at the new data version,
+    assert after[1] is before[1] and app.state.redactor.restricted is before[1]  # and the same persons kept

@@ -57,9 +57,22 @@ STATIC_DIR = PROJECT_DIR / "static"
 
 
 def read_session(request: Request) -> Iterator[Session]:
-    """Yield a read session on the app's database for the length of one request."""
+    """Yield a read session on the app's database for the length of one request.
+
+    The frame of the page and the redaction read from it too (``request_session``): one
+    transaction, so the data version in the frame is the one the page was read at.
+    """
     with request.app.state.database.read() as session:
-        yield session
+        request.state.read_session = session
+        try:
+            yield session
+        finally:
+            del request.state.read_session
+
+
+def request_session(request: Request) -> Session | None:
+    """Return the request's read session while its route runs, else None."""
+    return getattr(request.state, "read_session", None)
 
 
 def current_settings(request: Request) -> Settings:
@@ -341,8 +354,12 @@ class Layout:
 def page_layout(request: Request) -> Layout:
     """Return the frame of a full page: the dataset's name and its data version."""
     try:
-        with request.app.state.database.read() as session:
+        session = request_session(request)
+        if session is not None:
             version = get_data_version(session=session)
+        else:
+            with request.app.state.database.read() as session:
+                version = get_data_version(session=session)
     except SQLAlchemyError:
         version = None
     return Layout(dataset_name=request.app.state.settings.dataset_name, data_version=version)

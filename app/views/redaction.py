@@ -29,6 +29,7 @@ from fastapi import HTTPException, Request
 from app.auth import current_actor, visibility_of
 from app.store.privacy import RESTRICTED_KEY, RESTRICTED_NAME, RestrictedPersons, list_restricted_persons
 from app.store.summary import get_data_version
+from app.views.common import request_session
 
 __all__ = ["RESTRICTED_KEY", "RESTRICTED_NAME", "Redactor", "redact_for", "restricted_for", "restricted_persons"]
 
@@ -42,18 +43,38 @@ RESTRICTED_PAGE = ("This is a restricted person (recorded as living, or born too
                    "facts and evidence are shown to editors only. Elsewhere they appear as \"restricted person\".")
 
 
+TEXTS_KEPT = 50_000
+"""Texts whose redacted form a Redactor remembers: labels, kinds and names recur on every page."""
+
+
 class Redactor:
     """Rewrites view-models for a viewer who may not see ``restricted``."""
 
     def __init__(self, restricted: RestrictedPersons):
         self.restricted = restricted
         self.keys = restricted.keys
+        self._texts: dict[str, str] = {}
+        self._fields: dict[type, tuple[str, ...] | None] = {}
 
     # -- text -----------------------------------------------------------------------------------
 
     def text(self, value: str) -> str:
         """Return ``value`` with restricted keys and names replaced."""
-        return self.restricted.hide_in(value)
+        found = self._texts.get(value)
+        if found is None:
+            if len(self._texts) >= TEXTS_KEPT:
+                self._texts.clear()
+            found = self._texts[value] = self.restricted.hide_in(value)
+        return value if found == value else found  # unchanged: the very object, so nothing is copied
+
+    def _field_names(self, kind: type) -> tuple[str, ...] | None:
+        """The field names of a dataclass type, None for any other type (looked up once per type)."""
+        try:
+            return self._fields[kind]
+        except KeyError:
+            names = tuple(f.name for f in dataclasses.fields(kind)) if dataclasses.is_dataclass(kind) else None
+            self._fields[kind] = names
+            return names
 
     # -- structures -----------------------------------------------------------------------------
 
@@ -70,7 +91,7 @@ class Redactor:
         return any(self._is_restricted(getattr(view, field.name)) for field in dataclasses.fields(view))
 
     def _is_restricted(self, value: Any) -> bool:
-        if not dataclasses.is_dataclass(value) or isinstance(value, type):
+        if isinstance(value, type) or self._field_names(type(value)) is None:
             return False
         key = getattr(value, "key", None)
         if isinstance(key, str) and key in self.keys and any(hasattr(value, f) for f in NAME_FIELDS):
@@ -85,26 +106,27 @@ class Redactor:
             return new, False
         if isinstance(value, (bool, int, float, date, datetime)) or value is None:
             return value, False
-        if dataclasses.is_dataclass(value) and not isinstance(value, type):
+        names = None if isinstance(value, type) else self._field_names(type(value))
+        if names is not None:
             if self._is_restricted(value):
                 return self._blank_person(value), True
             changes: dict[str, Any] = {}
             holds = False
-            for field in dataclasses.fields(value):
-                old = getattr(value, field.name)
+            for name in names:
+                old = getattr(value, name)
                 new, restricted = self._walk(old)
                 # a field that is a restricted person makes this a record about them; a list of
                 # persons (members, alters, rows) does not
                 holds = holds or (restricted and not isinstance(old, (list, tuple, set, frozenset, dict)))
                 if new is not old:
-                    changes[field.name] = new
+                    changes[name] = new
             if holds:  # a record about a restricted person: its evidence goes, down to its attestations
-                for field in dataclasses.fields(value):
-                    current = changes.get(field.name, getattr(value, field.name))
-                    if _says_something(field.name):
-                        changes[field.name] = self._blank_value(current)
-                    elif field.name == "attestations" or dataclasses.is_dataclass(current) or isinstance(current, list):
-                        changes[field.name] = self._blank_evidence(current)
+                for name in names:
+                    current = changes.get(name, getattr(value, name))
+                    if _says_something(name):
+                        changes[name] = self._blank_value(current)
+                    elif name == "attestations" or dataclasses.is_dataclass(current) or isinstance(current, list):
+                        changes[name] = self._blank_evidence(current)
             return (self._replace(value, changes) if changes else value), False
         if isinstance(value, dict):
             items = [(self._walk(k)[0], self._walk(v)[0]) for k, v in value.items()]
@@ -189,15 +211,24 @@ def restricted_for(request: Request) -> RestrictedPersons | None:
 def restricted_persons(request: Request) -> RestrictedPersons:
     """Return the restricted persons of the dataset today (kept per data version), whoever asks."""
     state = request.app.state
-    settings = state.settings
     today = date.today()
+    session = request_session(request)
+    if session is not None:  # the page's own transaction: the persons restricted in what it read
+        return _restricted_at(state, session, today)
     with state.database.read() as session:
-        version = get_data_version(session=session)
-        key = (version, today, settings.living_years)
-        cached = getattr(state, "restricted_persons", None)
-        if cached is None or cached[0] != key:
-            cached = (key, list_restricted_persons(session=session, living_years=settings.living_years, today=today))
-            state.restricted_persons = cached
+        return _restricted_at(state, session, today)
+
+
+def _restricted_at(state: Any, session: Any, today: date) -> RestrictedPersons:
+    living_years = state.settings.living_years
+    key = (get_data_version(session=session), today, living_years)
+    cached = getattr(state, "restricted_persons", None)
+    if cached is None or cached[0] != key:
+        found = list_restricted_persons(session=session, living_years=living_years, today=today)
+        if cached is not None and cached[1] == found:
+            found = cached[1]  # most writes touch no restricted person: keep its compiled pattern and redactor
+        cached = (key, found)
+        state.restricted_persons = cached
     return cached[1]
 
 

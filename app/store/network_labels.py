@@ -15,6 +15,7 @@ from sqlalchemy import select
 from sqlalchemy.orm import Session, aliased
 
 from app.dates import season_words
+from app.documented import DOCUMENTED
 from app.models import Collection, Person, PersonAlias, RelationKind, Repository
 
 __all__ = [
@@ -36,7 +37,7 @@ __all__ = [
 class PersonLabel:
     """What a drawing shows of one person."""
 
-    __pydantic_config__ = {"use_attribute_docstrings": True}
+    __pydantic_config__ = DOCUMENTED
 
     id: int
     """Internal id (not stable across databases; links use the key)."""
@@ -54,7 +55,7 @@ class PersonLabel:
 class KindLabel:
     """One relation kind, with its parent for the tree of kinds."""
 
-    __pydantic_config__ = {"use_attribute_docstrings": True}
+    __pydantic_config__ = DOCUMENTED
 
     id: int
     """Internal id."""
@@ -72,7 +73,7 @@ class KindLabel:
 class CollectionLabel:
     """One collection of a repository."""
 
-    __pydantic_config__ = {"use_attribute_docstrings": True}
+    __pydantic_config__ = DOCUMENTED
 
     key: str
     """The collection's key, as used in `keep_collection=` and `omit_collection=`."""
@@ -84,7 +85,7 @@ class CollectionLabel:
 class ArchiveLabel:
     """One repository with its collections."""
 
-    __pydantic_config__ = {"use_attribute_docstrings": True}
+    __pydantic_config__ = DOCUMENTED
 
     key: str
     """The repository's key, as used in `keep_repository=` and `omit_repository=`."""

@@ -15,6 +15,7 @@ import dataclasses
 import doctest
 import io
 from pathlib import Path
+from urllib.parse import parse_qsl, urlsplit
 
 import networkx as nx
 import pytest
@@ -418,6 +419,42 @@ def test_centrality_sorts_on_every_column_and_shares_ranks(client: TestClient):
     assert header["person"].a["href"] == "/network/centrality?measure=degree&sort=name&order=desc"
     assert header["raw"].a["href"] == "/network/centrality?measure=degree&sort=raw"
     assert [tr["data-key"] for tr in page.select(".ranking-table tbody tr")] == [r["key"] for r in by_name]
+
+
+def test_the_ranked_table_comes_in_pages_with_its_sort_and_whole_table_ranks(tmp_path: Path, database: Database,
+                                                                           settings: Settings):
+    G = nx.barabasi_albert_graph(230, 2, seed=5)  # 230 persons with many degrees: three pages of 100
+    tables = {
+        "relation_kinds.csv": [{"key": "letter", "label": "letter", "directed": "no"}],
+        "persons.csv": [{"key": f"p-{v:03d}", "name": f"Person {v:03d}"} for v in G],
+        "sources.csv": [{"key": f"s-{i}", "kind": "original", "title": f"Letter {i}", "date": "1700"}
+                        for i, _ in enumerate(G.edges())],
+        "relations.csv": [{"person": f"p-{u:03d}", "other": f"p-{v:03d}", "kind": "letter", "source": f"s-{i}"}
+                          for i, (u, v) in enumerate(G.edges())],
+    }
+    import_workbook(database, write_workbook(tmp_path / "paged", tables), size_limit=10**9)
+    with TestClient(create_app(settings)) as client:
+        for sort in ("rank", "name", "raw"):
+            params = {"measure": "degree", "sort": sort}
+            everything = list(csv.DictReader(io.StringIO(client.get("/network/centrality",
+                                                                    params={**params, "format": "csv"}).text)))
+            assert len(everything) == 230
+            pages = [client.get("/api/network/centrality", params={**params, "page": str(n)}).json() for n in (1, 2, 3)]
+            assert [len(p["rows"]) for p in pages] == [100, 100, 30]
+            assert {(p["page"], p["pages"], p["total"]) for p in pages} == {(1, 3, 230), (2, 3, 230), (3, 3, 230)}
+            paged = [row for p in pages for row in p["rows"]]
+            assert [r["key"] for r in paged] == [r["key"] for r in everything]
+            assert [str(r["rank"]) for r in paged] == [r["rank"] for r in everything]  # ranks of the whole table
+            html = soup_of(client.get("/network/centrality", params={**params, "page": "2"}))
+            links = {a["rel"][0]: a["href"] for a in html.select("nav.pagination a")}
+            for rel, number in (("prev", "1"), ("next", "3")):
+                query = dict(parse_qsl(urlsplit(links[rel]).query))
+                assert query["page"] == number and query.get("sort", "rank") == sort, links[rel]
+            assert "rows 101–200 of 230" in html.select_one("nav.pagination .page-of").get_text()
+        degrees = dict(G.degree())
+        first = client.get("/api/network/centrality", params={"measure": "degree"}).json()["rows"][0]
+        assert first["raw"] == max(degrees.values())  # networkx's degree of the best-tied person
+        assert client.get("/api/network/centrality", params={"measure": "degree", "page": "4"}).status_code == 400
 
 
 def test_the_measure_chooser_and_the_definitions(client: TestClient):

@@ -93,12 +93,12 @@ router = APIRouter(tags=["network"])
 VIEWS = ("summary", "centrality", "components", "cut-points", "cliques", "communities")
 SORTS = {"rank": "asc", "name": "asc", "value": "desc", "raw": "desc"}
 """Columns of the ranked table that can be sorted, with their first order."""
-PAGE_SIZE = 500
+PAGE_SIZE = 100
+"""Rows of a ranked table per page (the CSV download holds them all; ranks are those of the whole table)."""
 ROWS_SHOWN = 300
 """Groups (components, cliques) and persons (isolates, per person) listed on a page; the CSV holds all."""
 MEMBERS_SHOWN = 60
 """Members listed of each component, clique or community on a page; the CSV holds all."""
-"""Rows of a ranked table per page (the CSV download holds them all)."""
 MAX_SEED = 2**31 - 1
 EMPTY_NOTE = ("No person is in this slice, so there is nothing to measure. The slice keeps no evidence: widen it "
               "(more relation kinds, a longer period, a lower certainty, more archives) with the form above.")
@@ -259,7 +259,7 @@ def centrality_view(
     return CentralityPage(
         measure=measure, slice=slice, conventions=p["conventions"], computed_at_version=outcome.computed_at_version,
         rows=rows, definition=MEASURE_INFO[measure], measures=_choices(slice), sort=sort, order=order, page=number,
-        pages=pages, total=total, engine=p["engine"], estimate=sampling is not None,
+        pages=pages, total=total, page_size=PAGE_SIZE, engine=p["engine"], estimate=sampling is not None,
         samples=sampling["samples"] if sampling else None, sampling_statement=sampling["statement"] if sampling else None,
         exact=wants_exact, context=_context(session, "centrality", slice, outcome, parameters, ["ranking"]), job=job,
     )  # fmt: skip

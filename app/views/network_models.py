@@ -325,6 +325,8 @@ class CentralityPage:
     """Number of pages."""
     total: int
     """Rows in the whole table (one per person)."""
+    page_size: int
+    """Rows per page (the CSV download holds every row)."""
     engine: str
     """The library that computed the figures (networkx or igraph)."""
     estimate: bool

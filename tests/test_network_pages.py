@@ -385,10 +385,14 @@ def test_the_summary_draws_its_degree_distribution_and_warns(client: TestClient)
     # the evidence world: a handful of persons, most evidence from the Vell family papers
     assert body["warnings"][0].startswith(f"Only {body['persons']} persons and {body['ties']} ties")
     assert any("come from one collection, Harwick Town Archive: Vell family papers" in w for w in body["warnings"])
+    assert any("come from one repository, Harwick Town Archive" in w for w in body["warnings"])
+    assert body["concentration"].startswith("The largest repository, Harwick Town Archive, supplies ")
+    assert "more than 50% of the attestations: common practice" in body["concentration"]
     assert sum(d["persons"] for d in body["degree_distribution"]) == body["persons"]
     assert body["context"]["n"] == body["persons"]
     page = soup_of(client.get("/network/summary"))
     assert [li.get_text(strip=True) for li in page.select(".warnings li")] == body["warnings"]
+    assert page.select_one(".concentration-note").get_text(strip=True) == body["concentration"]
     image = page.select_one("figure.chart img")
     assert image["src"] == "/network/summary/degrees.svg"
     assert image["alt"]
@@ -675,6 +679,7 @@ def test_centrality_warns_when_one_collection_holds_most_of_the_evidence(client:
     # gives the summary's own warning, word for word, and the summary does not give it twice
     summary = client.get("/api/network/summary").json()
     [concentrated] = [w for w in summary["warnings"] if "come from one collection" in w]
+    assert "come from one repository" in concentrated  # the archive and its collection, in one warning
     for measure in ("degree", "betweenness", "pagerank"):
         context = client.get("/api/network/centrality", params={"measure": measure}).json()["context"]
         assert context["collection_note"] == concentrated, measure

@@ -27,6 +27,7 @@ __all__ = [
     "list_archives",
     "list_person_keys",
     "list_collection_names",
+    "list_collection_repositories",
     "list_person_labels",
     "list_person_labels_by_key",
     "list_relation_kinds",
@@ -182,6 +183,25 @@ def list_collection_names(*, session: Session, ids: Iterable[int]) -> dict[int, 
     labels = {cid: f"{repository}: {name}" for cid, _key, name, repository in rows}
     repeated = {label for label in labels.values() if list(labels.values()).count(label) > 1}
     return {cid: f"{labels[cid]} ({key})" if labels[cid] in repeated else labels[cid] for cid, key, _n, _r in rows}
+
+
+def list_collection_repositories(*, session: Session, ids: Iterable[int]) -> dict[int, str]:
+    """Return the name of the repository holding each collection of ``ids``, keyed by collection id.
+
+    Two repositories of the same name are told apart by their keys, so counts keyed by name never
+    merge two archives.
+    """
+    wanted = sorted(set(ids))
+    if not wanted:
+        return {}
+    rows = session.execute(
+        select(Collection.id, Repository.id, Repository.key, Repository.name)
+        .join(Repository, Collection.repository_id == Repository.id)
+        .where(Collection.id.in_(wanted))
+    ).all()
+    names = {rid: name for _cid, rid, _key, name in rows}
+    repeated = {name for name in names.values() if list(names.values()).count(name) > 1}
+    return {cid: f"{name} ({key})" if name in repeated else name for cid, _rid, key, name in rows}
 
 
 def list_relation_kinds(*, session: Session) -> list[KindLabel]:

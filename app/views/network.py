@@ -175,7 +175,7 @@ def summary_view(
         largest_share=p["largest_share"], diameter=p["diameter"], average_path_length=p["average_path_length"],
         path_component=path_component, degree_distribution=distribution,
         in_degree_distribution=_degrees(p["in_degree_distribution"]), out_degree_distribution=_degrees(p["out_degree_distribution"]),
-        warnings=p["warnings"],
+        warnings=p["warnings"], concentration=p.get("concentration"),
         collections=[CollectionShare(name, count, count / counted) for name, count in p["collections"]],
         printed_attestations=p["printed_attestations"],
         context=_context(session, "summary", slice, outcome, [],

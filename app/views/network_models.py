@@ -217,7 +217,9 @@ class SummaryPage:
     out_degree_distribution: list[DegreeCount] | None
     """Persons per out-degree (directed slices only)."""
     warnings: list[str]
-    """What limits the figures: a small slice, evidence concentrated in one collection."""
+    """What limits the figures: a small slice, evidence concentrated in one repository or one collection."""
+    concentration: str | None
+    """The largest repository's and the largest collection's shares of the attestations, and the warning's threshold."""
     collections: list[CollectionShare]
     """Attestations behind the ties per collection, most first."""
     printed_attestations: int

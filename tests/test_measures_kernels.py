@@ -6,6 +6,7 @@ on the same graph.
 
 from __future__ import annotations
 
+import os
 import random
 
 import igraph as ig
@@ -59,6 +60,17 @@ def test_betweenness_is_networkx_raw(name, weighted):
     H = prepared(SHAPES[name], weighted)
     distance = DISTANCE if weighted else None
     close(kernels.betweenness(H, distance=distance), nx.betweenness_centrality(H, normalized=False, weight=distance))
+
+
+@pytest.mark.parametrize("name", ["disconnected", "directed", "grid", "directed_looped"])
+def test_betweenness_in_forked_processes_is_networkx_raw(name, monkeypatch):
+    # a large graph's path searches run in one process per core: forced here on small shapes
+    monkeypatch.setattr(kernels, "PARALLEL_PATHS_ABOVE", 0)
+    H = prepared(SHAPES[name], weighted=True)
+    g, _ = kernels.to_igraph(H)
+    assert kernels._path_workers(g) >= min(2, len(os.sched_getaffinity(0)))
+    for distance in (None, DISTANCE):
+        close(kernels.betweenness(H, distance=distance), nx.betweenness_centrality(H, normalized=False, weight=distance))
 
 
 @pytest.mark.parametrize("weighted", [False, True])

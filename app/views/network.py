@@ -211,14 +211,20 @@ def centrality_view(
     elif recompute:
         outcome = _outcome(database, measure, slice, options, recompute)
     else:
-        found = _background(database, worker, measure, options, slice, requested_by, inline_up_to)
+        # Stored exact figures replace an estimate: look for them first, so that a process reading
+        # them for the first time does not parse the estimate as well.
+        exact_first = (peek_outcome(database, measure=measure, slice=slice, options={"exact": True},
+                                    visibility=request_visibility()) if not options and measure in SAMPLED else None)
+        if exact_first is not None and exact_first.changes_since:
+            exact_first = None  # after a write the default result may be newer: as below, estimate first
+        found = exact_first or _background(database, worker, measure, options, slice, requested_by, inline_up_to)
         if isinstance(found, Pending) and measure in SAMPLED:  # the estimate meanwhile
             job, outcome = _job_view(found, measure), _outcome(database, measure, slice, {}, False)
         elif isinstance(found, Pending):
             job, outcome = _job_view(found, measure), _pending_outcome(database, measure, slice)
         else:
             outcome = found
-        if not options and measure in SAMPLED and outcome.payload.get("sampling"):
+        if exact_first is None and not options and measure in SAMPLED and outcome.payload.get("sampling"):
             # An estimate: the exact figures replace it once stored; on a large slice they are queued at once.
             exact_stored = peek_outcome(database, measure=measure, slice=slice, options={"exact": True},
                                         visibility=request_visibility())
@@ -349,8 +355,15 @@ def communities_view(
     job = None
     if needs_worker("communities", options, slice_size(database, slice, request_visibility()), inline_up_to):
         # A large slice: one seed's partition at once, its stability across seeds from the background worker.
-        quick = _outcome(database, "communities", slice, {**options, "runs": 1}, recompute)
-        outcome, job = _refined(database, worker, "communities", options, slice, quick, recompute, requested_by, inline_up_to)
+        # The full result, when stored, is looked for first: no parsing of the one-seed partition too.
+        stored = None if recompute else peek_outcome(database, measure="communities", slice=slice, options=options,
+                                                     visibility=request_visibility())
+        if stored is not None:
+            outcome = stored
+        else:
+            quick = _outcome(database, "communities", slice, {**options, "runs": 1}, recompute)
+            outcome, job = _refined(database, worker, "communities", options, slice, quick, recompute, requested_by,
+                                    inline_up_to)
     else:
         outcome = _outcome(database, "communities", slice, options, recompute)
     p = outcome.payload

@@ -32,7 +32,7 @@ import os
 import random
 import threading
 import weakref
-from collections.abc import Hashable, Iterable, Iterator
+from collections.abc import Hashable, Iterator
 from contextlib import contextmanager
 from typing import Any
 

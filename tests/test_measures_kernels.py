@@ -6,7 +6,6 @@ on the same graph.
 
 from __future__ import annotations
 
-import os
 import random
 
 import igraph as ig
@@ -67,10 +66,11 @@ def test_betweenness_in_forked_processes_is_networkx_raw(name, monkeypatch):
     # a large graph's path searches run in one process per core: forced here on small shapes
     monkeypatch.setattr(kernels, "PARALLEL_PATHS_ABOVE", 0)
     H = prepared(SHAPES[name], weighted=True)
-    g, _ = kernels.to_igraph(H)
-    assert kernels._path_workers(g) >= min(2, len(os.sched_getaffinity(0)))
     for distance in (None, DISTANCE):
-        close(kernels.betweenness(H, distance=distance), nx.betweenness_centrality(H, normalized=False, weight=distance))
+        reference = nx.betweenness_centrality(H, normalized=False, weight=distance)
+        g, nodes = kernels.to_igraph(H, attribute=distance)
+        close(dict(zip(nodes, kernels._betweenness_in_processes(g, distance, 2).tolist())), reference)
+        close(kernels.betweenness(H, distance=distance), reference)  # in processes unless this one has threads
 
 
 @pytest.mark.parametrize("weighted", [False, True])

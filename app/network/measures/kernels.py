@@ -121,8 +121,13 @@ _SHARED: dict[str, Any] = {}  # the graph a forked path-search process reads (in
 
 
 def _path_workers(g: ig.Graph) -> int:
-    """Return how many processes exact betweenness should use on ``g`` (1: here, in this process)."""
-    if g.vcount() * g.ecount() <= PARALLEL_PATHS_ABOVE or "fork" not in multiprocessing.get_all_start_methods():
+    """Return how many processes exact betweenness should use on ``g`` (1: here, in this process).
+
+    Only a process with no other thread forks (the background worker; not a server, whose other
+    threads could hold a lock at the moment of the fork).
+    """
+    if (g.vcount() * g.ecount() <= PARALLEL_PATHS_ABOVE or threading.active_count() > 1
+            or "fork" not in multiprocessing.get_all_start_methods()):
         return 1
     return min(len(os.sched_getaffinity(0)) if hasattr(os, "sched_getaffinity") else os.cpu_count() or 1, 4)
 

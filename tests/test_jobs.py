@@ -7,6 +7,7 @@ for a large slice: the inline threshold is lowered to 2 persons so that closenes
 
 from __future__ import annotations
 
+import json
 import os
 import subprocess
 import time
@@ -263,3 +264,27 @@ def test_the_person_page_and_the_recompute_button_leave_heavy_measures_to_the_wo
     body = answer.json()
     assert body["job"]["state"] == "queued" and len(body["rows"]) == 15
     assert len(jobs_in(florentine_db)) == before + 1
+
+
+def test_a_result_kept_in_memory_reads_as_its_stored_json_and_the_slice_size_comes_from_the_database(
+    florentine_db: Database,
+):
+    # The computing process keeps what it stored for the next request (no parse); another process
+    # parses the stored JSON: both must be the same data. The size of a slice is read in SQL.
+    from app.models import StoredMeasure
+    from app.network.slice import Slice
+    from app.store import measure_results
+
+    slice_ = Slice(direction="undirected")
+    for measure, options in (("summary", {}), ("components", {}), ("cut-points", {}), ("cliques", {"min_size": 3}),
+                             ("communities", {"method": "leiden", "seed": 0}), ("betweenness", {}), ("closeness", {})):
+        outcome = network_results.get_or_compute(florentine_db, measure=measure, slice=slice_, options=options)
+        with florentine_db.read() as session:
+            stored = session.scalar(select(StoredMeasure.result_json).where(StoredMeasure.measure == measure))
+        assert outcome.payload == json.loads(stored), measure
+    measure_results._SIZES.clear()
+    measure_results._PARSED.clear()
+    with florentine_db.read() as session:
+        assert measure_results.get_slice_size(session=session, slice_key=network_results.slice_key(slice_),
+                                              visibility=network_results.VISIBILITY_ALL) == 15
+    assert not measure_results._PARSED  # the size alone was read, not the result

@@ -396,7 +396,7 @@ def test_karate_weighted_betweenness_equals_exact_rational_arithmetic(karate):
 
 @pytest.mark.parametrize("engine", ["igraph", "networkx"])
 def test_sampled_betweenness_equals_networkx_estimate(karate, engine):
-    for k, seed in ((5, 1), (12, 7)):
+    for k, seed in ((5, 1), (12, 7), (27, 3)):  # 27 sources: taken in 20 groups
         result = centrality.betweenness(karate, samples=k, seed=seed, engine=engine)
         # networkx >= 3.5: sampled sources, scaled by (n - 1)/k, (n - 1)/(k - 1) for the sources themselves
         approx(result.values, nx.betweenness_centrality(karate, k=k, seed=seed), rel=1e-9, abs=1e-12)
@@ -421,6 +421,22 @@ def test_sampled_betweenness_is_the_same_for_the_same_seed_and_exact_without_sam
     assert centrality.betweenness(karate, samples=9, seed=12).values != first.values
     exact = centrality.betweenness(karate, samples=34)
     assert exact.sampling is None and exact.values == centrality.betweenness(karate).values
+
+
+def test_sampled_betweenness_standard_errors_hold_when_sources_are_grouped():
+    # More sources than groups (60 sources in 20 groups of 3): the errors, from the spread of the
+    # groups' shares, still match the spread of the estimates over seeds. Graph: the Les
+    # Misérables co-appearance network (Knuth 1993), shipped with networkx.
+    G = nx.convert_node_labels_to_integers(nx.les_miserables_graph())
+    exact = centrality.betweenness(G).values
+    runs = [centrality.betweenness(G, samples=60, seed=seed) for seed in range(200)]
+    assert "taken in 20 groups" in runs[0].conventions
+    for node in sorted(exact, key=exact.get, reverse=True)[:4]:
+        estimates = [r.values[node] for r in runs]
+        spread = statistics.pstdev(estimates)
+        mean_error = statistics.mean(r.sampling.standard_errors[node] ** 2 for r in runs) ** 0.5
+        assert statistics.mean(estimates) == pytest.approx(exact[node], abs=3 * spread / math.sqrt(len(runs)))
+        assert mean_error == pytest.approx(spread, rel=0.25), node
 
 
 def test_sampled_betweenness_standard_errors_match_the_spread_of_estimates(karate):

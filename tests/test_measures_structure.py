@@ -234,12 +234,23 @@ def test_summary_counts_distinct_attestations_and_warns():
     assert summary.reciprocity == 1.0
     assert summary.warnings == [
         "Only 3 persons and 2 ties: measures on so few ties say little.",
-        "75% of the attestations (3 of 4) come from one collection, Vell family papers: "
-        "the network may show what that collection kept rather than all that happened.",
+        "Most of the attestations come from one source of evidence: 75% (3 of 4) come from one collection, Vell "
+        "family papers. The network may show what that archive kept rather than all that happened. (A warning is "
+        "given when one repository or one collection supplies more than 50% of the attestations: common practice, "
+        "not a published rule.)",
     ]
     big = nx.gnm_random_graph(40, 80, seed=1)
     assert summarize(big, collection_counts={"a": 5, "b": 5}).warnings == []
     assert collection_warning({}) is None
+    # one repository holds most of the evidence in collections none of which does (common practice: more than half)
+    spread = {"Harwick: letters": 30, "Harwick: accounts": 30, "Harwick: registers": 10, "Delden: council": 30}
+    warning = collection_warning(spread, repositories={"Harwick": 70, "Delden": 30}, total=100)
+    assert "70% (70 of 100) come from one repository, Harwick." in warning and "from one collection" not in warning
+    assert "more than 50%" in warning
+    # printed sources count in the whole: 60 of 130 from one repository is not most
+    assert collection_warning({"Harwick: letters": 60}, repositories={"Harwick": 60}, total=130) is None
+    both = collection_warning({"Harwick: letters": 80, "Delden: council": 20}, repositories={"Harwick": 80, "Delden": 20})
+    assert "80% (80 of 100) come from one repository, Harwick; 80% (80 of 100) come from one collection, Harwick: letters" in both
     empty = summarize(nx.Graph())
     assert (empty.persons, empty.density, empty.diameter, empty.largest_share) == (0, None, None, None)
 

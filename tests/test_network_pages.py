@@ -15,6 +15,7 @@ import dataclasses
 import doctest
 import io
 from pathlib import Path
+from urllib.parse import parse_qsl, urlsplit
 
 import networkx as nx
 import pytest
@@ -384,10 +385,14 @@ def test_the_summary_draws_its_degree_distribution_and_warns(client: TestClient)
     # the evidence world: a handful of persons, most evidence from the Vell family papers
     assert body["warnings"][0].startswith(f"Only {body['persons']} persons and {body['ties']} ties")
     assert any("come from one collection, Harwick Town Archive: Vell family papers" in w for w in body["warnings"])
+    assert any("come from one repository, Harwick Town Archive" in w for w in body["warnings"])
+    assert body["concentration"].startswith("The largest repository, Harwick Town Archive, supplies ")
+    assert "more than 50% of the attestations: common practice" in body["concentration"]
     assert sum(d["persons"] for d in body["degree_distribution"]) == body["persons"]
     assert body["context"]["n"] == body["persons"]
     page = soup_of(client.get("/network/summary"))
     assert [li.get_text(strip=True) for li in page.select(".warnings li")] == body["warnings"]
+    assert page.select_one(".concentration-note").get_text(strip=True) == body["concentration"]
     image = page.select_one("figure.chart img")
     assert image["src"] == "/network/summary/degrees.svg"
     assert image["alt"]
@@ -418,6 +423,42 @@ def test_centrality_sorts_on_every_column_and_shares_ranks(client: TestClient):
     assert header["person"].a["href"] == "/network/centrality?measure=degree&sort=name&order=desc"
     assert header["raw"].a["href"] == "/network/centrality?measure=degree&sort=raw"
     assert [tr["data-key"] for tr in page.select(".ranking-table tbody tr")] == [r["key"] for r in by_name]
+
+
+def test_the_ranked_table_comes_in_pages_with_its_sort_and_whole_table_ranks(tmp_path: Path, database: Database,
+                                                                           settings: Settings):
+    G = nx.barabasi_albert_graph(230, 2, seed=5)  # 230 persons with many degrees: three pages of 100
+    tables = {
+        "relation_kinds.csv": [{"key": "letter", "label": "letter", "directed": "no"}],
+        "persons.csv": [{"key": f"p-{v:03d}", "name": f"Person {v:03d}"} for v in G],
+        "sources.csv": [{"key": f"s-{i}", "kind": "original", "title": f"Letter {i}", "date": "1700"}
+                        for i, _ in enumerate(G.edges())],
+        "relations.csv": [{"person": f"p-{u:03d}", "other": f"p-{v:03d}", "kind": "letter", "source": f"s-{i}"}
+                          for i, (u, v) in enumerate(G.edges())],
+    }
+    import_workbook(database, write_workbook(tmp_path / "paged", tables), size_limit=10**9)
+    with TestClient(create_app(settings)) as client:
+        for sort in ("rank", "name", "raw"):
+            params = {"measure": "degree", "sort": sort}
+            everything = list(csv.DictReader(io.StringIO(client.get("/network/centrality",
+                                                                    params={**params, "format": "csv"}).text)))
+            assert len(everything) == 230
+            pages = [client.get("/api/network/centrality", params={**params, "page": str(n)}).json() for n in (1, 2, 3)]
+            assert [len(p["rows"]) for p in pages] == [100, 100, 30]
+            assert {(p["page"], p["pages"], p["total"]) for p in pages} == {(1, 3, 230), (2, 3, 230), (3, 3, 230)}
+            paged = [row for p in pages for row in p["rows"]]
+            assert [r["key"] for r in paged] == [r["key"] for r in everything]
+            assert [str(r["rank"]) for r in paged] == [r["rank"] for r in everything]  # ranks of the whole table
+            html = soup_of(client.get("/network/centrality", params={**params, "page": "2"}))
+            links = {a["rel"][0]: a["href"] for a in html.select("nav.pagination a")}
+            for rel, number in (("prev", "1"), ("next", "3")):
+                query = dict(parse_qsl(urlsplit(links[rel]).query))
+                assert query["page"] == number and query.get("sort", "rank") == sort, links[rel]
+            assert "rows 101–200 of 230" in html.select_one("nav.pagination .page-of").get_text()
+        degrees = dict(G.degree())
+        first = client.get("/api/network/centrality", params={"measure": "degree"}).json()["rows"][0]
+        assert first["raw"] == max(degrees.values())  # networkx's degree of the best-tied person
+        assert client.get("/api/network/centrality", params={"measure": "degree", "page": "4"}).status_code == 400
 
 
 def test_the_measure_chooser_and_the_definitions(client: TestClient):
@@ -638,6 +679,7 @@ def test_centrality_warns_when_one_collection_holds_most_of_the_evidence(client:
     # gives the summary's own warning, word for word, and the summary does not give it twice
     summary = client.get("/api/network/summary").json()
     [concentrated] = [w for w in summary["warnings"] if "come from one collection" in w]
+    assert "come from one repository" in concentrated  # the archive and its collection, in one warning
     for measure in ("degree", "betweenness", "pagerank"):
         context = client.get("/api/network/centrality", params={"measure": measure}).json()["context"]
         assert context["collection_note"] == concentrated, measure

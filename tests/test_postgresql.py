@@ -15,7 +15,7 @@ import sys
 import httpx
 import pytest
 from alembic import command
-from sqlalchemy import func, select, text
+from sqlalchemy import func, literal, select, text
 
 from app.config import database_url
 from app.db import Database, alembic_config, check_schema, current_revision, head_revision, upgrade
@@ -64,6 +64,22 @@ def test_the_sql_fold_gives_what_the_python_fold_gives(pg_url: str) -> None:
         database.dispose()
     differ = [(name, sql, fold(name)) for name, sql in zip(names, folded) if sql != fold(name)]
     assert differ == []
+
+
+@pytest.mark.parametrize("url_of", ["sqlite", "postgresql"])
+def test_json_integer_reads_a_top_level_number_on_both_databases(url_of: str, pg_url: str, db_url: str) -> None:
+    from app.sql import json_integer
+
+    database = Database(pg_url if url_of == "postgresql" else db_url)
+    try:
+        with database.engine.connect() as connection:
+            def read(document: str) -> int | None:
+                return connection.execute(select(json_integer(literal(document), "n"))).scalar()
+
+            assert read('{"rows": [{"n": 3}], "n": 19943}') == 19943
+            assert read('{"rows": []}') is None
+    finally:
+        database.dispose()
 
 
 def test_migrations_build_exactly_the_models_on_postgresql(postgres) -> None:  # noqa: ANN001

@@ -13,6 +13,7 @@ import json
 from dataclasses import dataclass, field
 from itertools import islice
 
+from app.documented import DOCUMENTED
 from app.exchange.workbook import FILES, Sheet, SheetPlan, workbook_file_of
 from app.names import fold
 
@@ -37,7 +38,7 @@ COMMON_NAMES = {
 class SheetMapping:
     """What the mapping step shows for one sheet: its columns, the suggested file and fields, and why it asks."""
 
-    __pydantic_config__ = {"use_attribute_docstrings": True}
+    __pydantic_config__ = DOCUMENTED
 
     sheet: str
     """The sheet's name as uploaded (a CSV file's name, or an .xlsx sheet's)."""

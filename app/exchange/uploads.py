@@ -28,6 +28,7 @@ from sqlalchemy import select
 from sqlalchemy.orm import Session
 
 from app.db import Database
+from app.documented import DOCUMENTED
 from app.exchange.duplicates import Candidate, Suggestion, find_duplicates
 from app.exchange.graphml import DEFAULT_KIND, prepare_graphml
 from app.exchange.mapping import SheetMapping, plans_from_json, suggest_mappings
@@ -426,7 +427,7 @@ def data_version(database: Database) -> int:
 class Preview:
     """What confirming the upload would do, or why it cannot be imported."""
 
-    __pydantic_config__ = {"use_attribute_docstrings": True}
+    __pydantic_config__ = DOCUMENTED
 
     fingerprint: str
     """Hash of the files, the mapping and the data version the preview was made of; the confirmation sends it back."""
@@ -616,7 +617,7 @@ def confirm_import(upload: Upload, database: Database, *, fingerprint: str, deci
 class ImportTask:
     """A preview or an import running in the background, and how far it is."""
 
-    __pydantic_config__ = {"use_attribute_docstrings": True}
+    __pydantic_config__ = DOCUMENTED
 
     token: str
     """The upload's token."""

@@ -22,6 +22,7 @@ from collections import defaultdict
 from collections.abc import Mapping, Sequence
 from dataclasses import dataclass
 
+from app.documented import DOCUMENTED
 from app.network.group_drawing import GroupDrawnNode, _count, _kind, _line, _mark, _view_box
 from app.network.twomode import MembershipEvidence
 
@@ -41,7 +42,7 @@ SWEEPS = 4
 class TwoModeDrawnEdge:
     """One membership as drawn: a line from a person to a group."""
 
-    __pydantic_config__ = {"use_attribute_docstrings": True}
+    __pydantic_config__ = DOCUMENTED
 
     person: str
     """Key of the person."""
@@ -59,7 +60,7 @@ class TwoModeDrawnEdge:
 class TwoModeDrawing:
     """The bipartite drawing of a slice, in its own coordinates, with what it leaves out."""
 
-    __pydantic_config__ = {"use_attribute_docstrings": True}
+    __pydantic_config__ = DOCUMENTED
 
     left: float
     """Left edge of the view box (cropped to the marks and their labels)."""

@@ -8,6 +8,8 @@ from __future__ import annotations
 
 from dataclasses import dataclass
 
+from app.documented import DOCUMENTED
+
 __all__ = ["FAMILIES", "MEASURE_INFO", "Definition"]
 
 
@@ -15,7 +17,7 @@ __all__ = ["FAMILIES", "MEASURE_INFO", "Definition"]
 class Definition:
     """A measure's name on screen, its meaning in plain words and its published reference."""
 
-    __pydantic_config__ = {"use_attribute_docstrings": True}
+    __pydantic_config__ = DOCUMENTED
 
     name: str
     """The name used in URLs (``betweenness``)."""

@@ -15,6 +15,7 @@ import re
 from collections import defaultdict
 from dataclasses import dataclass
 
+from app.documented import DOCUMENTED
 from app.network.ego import EgoEdge, EgoNetwork
 from app.network.layout import HEIGHT, WIDTH, Placement, ego_layout
 from app.store.network_labels import KindLabel
@@ -39,7 +40,7 @@ WIDTH_MEANS = {
 class KindStyle:
     """How one relation kind is drawn."""
 
-    __pydantic_config__ = {"use_attribute_docstrings": True}
+    __pydantic_config__ = DOCUMENTED
 
     key: str
     """The kind's key."""
@@ -64,7 +65,7 @@ CO_MEMBERSHIP_STYLE = KindStyle(key="co-membership", label="shared groups (co-me
 class DrawnNode:
     """One person as drawn."""
 
-    __pydantic_config__ = {"use_attribute_docstrings": True}
+    __pydantic_config__ = DOCUMENTED
 
     key: str
     """The person's key."""
@@ -104,7 +105,7 @@ class DrawnNode:
 class DrawnEdge:
     """One tie as drawn."""
 
-    __pydantic_config__ = {"use_attribute_docstrings": True}
+    __pydantic_config__ = DOCUMENTED
 
     source: str
     """Key of the first person."""
@@ -134,7 +135,7 @@ class DrawnEdge:
 class Drawing:
     """Everything the SVG template needs, in the drawing's own coordinates."""
 
-    __pydantic_config__ = {"use_attribute_docstrings": True}
+    __pydantic_config__ = DOCUMENTED
 
     width: int
     """Width of the view box."""

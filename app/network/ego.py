@@ -14,6 +14,7 @@ from dataclasses import dataclass, field
 
 from sqlalchemy.orm import Session
 
+from app.documented import DOCUMENTED
 from app.network.slice import (
     NeighbourTotal,
     RelationTotal,
@@ -37,7 +38,7 @@ DEFAULT_MAX_ALTERS = {1: 60, 2: 150}
 class EgoNode:
     """One person of the ego network."""
 
-    __pydantic_config__ = {"use_attribute_docstrings": True}
+    __pydantic_config__ = DOCUMENTED
 
     key: str
     """The person's key."""
@@ -57,7 +58,7 @@ class EgoNode:
 class EgoEdge:
     """One tie of the ego network: one relation kind between one pair of persons."""
 
-    __pydantic_config__ = {"use_attribute_docstrings": True}
+    __pydantic_config__ = DOCUMENTED
 
     source: str
     """Key of the first person (for a directed tie, the sender, patron, parent...)."""
@@ -91,7 +92,7 @@ class EgoEdge:
 class EgoNetwork:
     """The ego, its alters within the radius and all ties among them, in one slice."""
 
-    __pydantic_config__ = {"use_attribute_docstrings": True}
+    __pydantic_config__ = DOCUMENTED
 
     ego: str
     """Key of the ego."""

@@ -20,6 +20,7 @@ from typing import Protocol
 
 from sqlalchemy.orm import Session
 
+from app.documented import DOCUMENTED
 from app.network.drawing import short_label
 from app.network.layout import _outer_angles
 from app.network.slice import ResolvedSlice
@@ -65,7 +66,7 @@ class _GroupLabel(Protocol):
 class GroupDrawnNode:
     """One person or group as drawn."""
 
-    __pydantic_config__ = {"use_attribute_docstrings": True}
+    __pydantic_config__ = DOCUMENTED
 
     key: str
     """The person's or group's key."""
@@ -109,7 +110,7 @@ class GroupDrawnNode:
 class GroupDrawnEdge:
     """One membership as drawn: a line from a person to a group."""
 
-    __pydantic_config__ = {"use_attribute_docstrings": True}
+    __pydantic_config__ = DOCUMENTED
 
     person: str
     """Key of the person."""
@@ -129,7 +130,7 @@ class GroupDrawnEdge:
 class GroupDrawing:
     """Everything the SVG template needs, in the drawing's own coordinates."""
 
-    __pydantic_config__ = {"use_attribute_docstrings": True}
+    __pydantic_config__ = DOCUMENTED
 
     left: float
     """Left edge of the view box: the drawing is cropped to the marks and their labels."""
@@ -149,7 +150,7 @@ class GroupDrawing:
 class SharedGroup:
     """Another group that members of this group belong to."""
 
-    __pydantic_config__ = {"use_attribute_docstrings": True}
+    __pydantic_config__ = DOCUMENTED
 
     key: str
     """The group's key."""
@@ -167,7 +168,7 @@ class SharedGroup:
 class GroupNeighbourhood:
     """The two-mode neighbourhood of one group in one slice."""
 
-    __pydantic_config__ = {"use_attribute_docstrings": True}
+    __pydantic_config__ = DOCUMENTED
 
     members: int
     """Persons with a membership of the group kept by the slice."""

@@ -12,6 +12,7 @@ import math
 from collections import defaultdict
 from dataclasses import dataclass
 
+from app.documented import DOCUMENTED
 from app.network.ego import EgoNetwork
 
 __all__ = ["HEIGHT", "WIDTH", "Placement", "ego_layout"]
@@ -26,7 +27,7 @@ RINGS = {1: (280.0,), 2: (205.0, 350.0)}  # ring radii with one ring and with tw
 class Placement:
     """Where one person is drawn."""
 
-    __pydantic_config__ = {"use_attribute_docstrings": True}
+    __pydantic_config__ = DOCUMENTED
 
     x: float
     """Horizontal position in the drawing's coordinates (0 to WIDTH)."""

@@ -37,13 +37,13 @@ from app.network.measures import MEASURES, cliques, communities, components, com
 from app.network.measures.communities import STABILITY_RUNS
 from app.network.measures.cuts import TieRecord
 from app.network.measures.results import MeasureError
-from app.network.measures.summary import collection_warning
+from app.network.measures.summary import collection_warning, concentration_note
 from app.network.measures.arcs import ArcGraph
 from app.network.same_as import merge_nodes, same_as_mapping
 from app.network.slice import ResolvedSlice, Slice, collection_counts, node_set_of, resolve_slice
 from app.network.slice_arrays import SliceArrays, TieArrays, slice_arrays, tie_arrays
 from app.store.measure_results import get_stored_result, save_result
-from app.store.network_labels import list_collection_names, list_person_keys
+from app.store.network_labels import list_collection_names, list_collection_repositories, list_person_keys
 from app.store.summary import get_data_version
 
 __all__ = [
@@ -357,31 +357,44 @@ def _centrality(G: nx.Graph, measure: str, slice_: Slice, key_of: dict, options:
 
 def _summary(session: Session, graph: SliceGraph, *, exact_paths: bool | None = None) -> dict[str, Any]:
     slice_ = graph.slice
-    counts, printed, attestations = _collection_shares(session, graph)
+    shares = _evidence_shares(session, graph)
     measured: nx.Graph | ArcGraph = graph.arcs if graph.relations is not None else graph.G
-    summary = summarize(measured, node_set=slice_.nodes, collection_counts=counts, exact_paths=exact_paths)
+    summary = summarize(measured, node_set=slice_.nodes, collection_counts=shares.collections,
+                        repository_counts=shares.repositories, attestations=shares.attestations, exact_paths=exact_paths)
     payload = asdict(summary)
-    payload["attestations"] = attestations
+    payload["attestations"] = shares.attestations
     for field in ("degree_distribution", "in_degree_distribution", "out_degree_distribution"):
         if payload[field] is not None:
             payload[field] = [[degree, persons] for degree, persons in payload[field].items()]
-    payload["collections"] = sorted(([name, count] for name, count in counts.items()), key=lambda item: (-item[1], item[0]))
-    payload["printed_attestations"] = printed
+    payload["collections"] = sorted(([name, count] for name, count in shares.collections.items()),
+                                    key=lambda item: (-item[1], item[0]))
+    payload["printed_attestations"] = shares.printed
+    payload["concentration"] = concentration_note(shares.collections, repositories=shares.repositories,
+                                                  total=shares.attestations)
     payload["n"] = len(measured)
     return _finite(payload)
 
 
-def _collection_shares(session: Session, graph: SliceGraph) -> tuple[dict[str, int], int, int]:
-    """Return the attestations behind the slice's ties per collection (by name), those from printed
-    sources, and their total (with a co-membership slice's group evidence)."""
+@dataclass(frozen=True)
+class EvidenceShares:
+    """Where the attestations behind a slice's ties come from."""
+
+    collections: dict[str, int]  # attestations per collection, by its label ("repository: collection")
+    repositories: dict[str, int]  # attestations per repository, by its name
+    printed: int  # attestations from printed sources (in no collection)
+    attestations: int  # all of them (with a co-membership slice's group evidence)
+
+
+def _evidence_shares(session: Session, graph: SliceGraph) -> EvidenceShares:
+    """Return the attestations behind the slice's ties per collection and per repository, and in all."""
     if graph.relations is not None:  # the arrays: the relations behind the ties and their collections
         relations, ties = graph.relations, graph.ties
         behind = np.zeros(len(relations), dtype=bool)
         behind[ties.entry_relation] = True
         counted = behind[relations.collection_relation]
-        per_collection: Counter = Counter()
-        for collection, count in zip(relations.collection[counted].tolist(), relations.collection_attestations[counted].tolist()):
-            per_collection[None if collection < 0 else collection] += count
+        ids = relations.collection[counted]
+        sums = np.bincount(ids + 1, weights=relations.collection_attestations[counted]).astype(np.int64)
+        per_collection: Counter = Counter({None if c == 0 else c - 1: int(n) for c, n in enumerate(sums.tolist()) if n})
         attestations = int(relations.attestations[behind].sum())
     else:
         G = graph.G
@@ -392,12 +405,18 @@ def _collection_shares(session: Session, graph: SliceGraph) -> tuple[dict[str, i
         attestations = sum(graph.attestations[r] for r in in_graph) + G.graph.get("membership_attestations", 0)
     printed = per_collection.pop(None, 0)
     names = list_collection_names(session=session, ids=list(per_collection))
-    return {names[c]: count for c, count in per_collection.items()}, printed, attestations
+    holders = list_collection_repositories(session=session, ids=list(per_collection))
+    repositories: Counter = Counter()
+    for c, count in per_collection.items():
+        repositories[holders[c]] += count
+    return EvidenceShares({names[c]: count for c, count in per_collection.items()}, dict(repositories), printed,
+                          attestations)
 
 
 def _collection_note(session: Session, graph: SliceGraph) -> str | None:
-    """Return the summary's warning when one collection holds most of the slice's evidence, else None."""
-    return collection_warning(_collection_shares(session, graph)[0])
+    """Return the summary's warning when one repository or collection supplies most of the slice's evidence, else None."""
+    shares = _evidence_shares(session, graph)
+    return collection_warning(shares.collections, repositories=shares.repositories, total=shares.attestations)
 
 
 def _components(G: nx.Graph, slice_: Slice, key_of: dict) -> dict[str, Any]:

@@ -14,6 +14,7 @@ from sqlalchemy import select
 from sqlalchemy.orm import Session, aliased, joinedload
 
 from app.dates import DateInterval, format_interval
+from app.documented import DOCUMENTED
 from app.models import Attestation, Person, Relation
 from app.store.citations import SourceCitation, get_citations
 
@@ -31,7 +32,7 @@ __all__ = [
 class WrittenName:
     """How a document writes the name of one party."""
 
-    __pydantic_config__ = {"use_attribute_docstrings": True}
+    __pydantic_config__ = DOCUMENTED
 
     person_key: str
     """Key of the person meant."""
@@ -45,7 +46,7 @@ class WrittenName:
 class CitedAttestation:
     """One attestation with everything needed to find the evidence again and weigh it."""
 
-    __pydantic_config__ = {"use_attribute_docstrings": True}
+    __pydantic_config__ = DOCUMENTED
 
     key: str
     """The attestation's key."""
@@ -91,7 +92,7 @@ class CitedAttestation:
 class EvidenceCounts:
     """How much evidence a set of attestations is: documents, witnesses, collections, period."""
 
-    __pydantic_config__ = {"use_attribute_docstrings": True}
+    __pydantic_config__ = DOCUMENTED
 
     attestations: int
     """Attestations counted."""

@@ -7,6 +7,7 @@ from dataclasses import dataclass
 from sqlalchemy import select
 from sqlalchemy.orm import Session, joinedload
 
+from app.documented import DOCUMENTED
 from app.models import Collection, Source
 
 __all__ = ["SourceCitation", "get_citations", "source_citation", "web_address"]
@@ -16,7 +17,7 @@ __all__ = ["SourceCitation", "get_citations", "source_citation", "web_address"]
 class SourceCitation:
     """How to find one document again."""
 
-    __pydantic_config__ = {"use_attribute_docstrings": True}
+    __pydantic_config__ = DOCUMENTED
 
     key: str
     """The source's key."""

@@ -17,6 +17,7 @@ from sqlalchemy import func, select
 from sqlalchemy.orm import Session
 
 from app.dates import DateInterval, format_interval
+from app.documented import DOCUMENTED
 from app.models import Attestation, Group, Membership, Person, Place
 from app.names import fold
 from app.store.attestations import CitedAttestation, EvidenceCounts, count_evidence, get_cited_attestations, year_span
@@ -44,7 +45,7 @@ _LIVE = Attestation.deleted_at.is_(None)
 class TermDate:
     """A start or end date: as written, and as the Gregorian days it can mean."""
 
-    __pydantic_config__ = {"use_attribute_docstrings": True}
+    __pydantic_config__ = DOCUMENTED
 
     text: str
     """As written (EDTF)."""
@@ -60,7 +61,7 @@ class TermDate:
 class GroupRef:
     """Enough about a group to name and link it."""
 
-    __pydantic_config__ = {"use_attribute_docstrings": True}
+    __pydantic_config__ = DOCUMENTED
 
     key: str
     """The group's key."""
@@ -74,7 +75,7 @@ class GroupRef:
 class GroupKind:
     """A kind of group and how many groups have it."""
 
-    __pydantic_config__ = {"use_attribute_docstrings": True}
+    __pydantic_config__ = DOCUMENTED
 
     kind: str
     """The kind as recorded."""
@@ -86,7 +87,7 @@ class GroupKind:
 class GroupListRow:
     """One group in the index."""
 
-    __pydantic_config__ = {"use_attribute_docstrings": True}
+    __pydantic_config__ = DOCUMENTED
 
     key: str
     """The group's key."""
@@ -118,7 +119,7 @@ class GroupListRow:
 class GroupList:
     """The index of groups, searched and filtered, in the order of the tree of parent groups."""
 
-    __pydantic_config__ = {"use_attribute_docstrings": True}
+    __pydantic_config__ = DOCUMENTED
 
     q: str
     """The search as typed ("" for none)."""
@@ -138,7 +139,7 @@ class GroupList:
 class GroupMember:
     """One membership of the group: who, in what role, for what term, on what evidence."""
 
-    __pydantic_config__ = {"use_attribute_docstrings": True}
+    __pydantic_config__ = DOCUMENTED
 
     person: PersonRef
     """The member."""
@@ -169,7 +170,7 @@ class GroupMember:
 class SubGroup:
     """A group whose parent is this group."""
 
-    __pydantic_config__ = {"use_attribute_docstrings": True}
+    __pydantic_config__ = DOCUMENTED
 
     key: str
     """The sub-group's key."""
@@ -185,7 +186,7 @@ class SubGroup:
 class GroupDetail:
     """Everything recorded about one group."""
 
-    __pydantic_config__ = {"use_attribute_docstrings": True}
+    __pydantic_config__ = DOCUMENTED
 
     id: int
     """Internal id (not stable across databases; links use the key)."""

@@ -15,6 +15,7 @@ from sqlalchemy import select
 from sqlalchemy.orm import Session, aliased
 
 from app.dates import season_words
+from app.documented import DOCUMENTED
 from app.models import Collection, Person, PersonAlias, RelationKind, Repository
 
 __all__ = [
@@ -26,6 +27,7 @@ __all__ = [
     "list_archives",
     "list_person_keys",
     "list_collection_names",
+    "list_collection_repositories",
     "list_person_labels",
     "list_person_labels_by_key",
     "list_relation_kinds",
@@ -36,7 +38,7 @@ __all__ = [
 class PersonLabel:
     """What a drawing shows of one person."""
 
-    __pydantic_config__ = {"use_attribute_docstrings": True}
+    __pydantic_config__ = DOCUMENTED
 
     id: int
     """Internal id (not stable across databases; links use the key)."""
@@ -54,7 +56,7 @@ class PersonLabel:
 class KindLabel:
     """One relation kind, with its parent for the tree of kinds."""
 
-    __pydantic_config__ = {"use_attribute_docstrings": True}
+    __pydantic_config__ = DOCUMENTED
 
     id: int
     """Internal id."""
@@ -72,7 +74,7 @@ class KindLabel:
 class CollectionLabel:
     """One collection of a repository."""
 
-    __pydantic_config__ = {"use_attribute_docstrings": True}
+    __pydantic_config__ = DOCUMENTED
 
     key: str
     """The collection's key, as used in `keep_collection=` and `omit_collection=`."""
@@ -84,7 +86,7 @@ class CollectionLabel:
 class ArchiveLabel:
     """One repository with its collections."""
 
-    __pydantic_config__ = {"use_attribute_docstrings": True}
+    __pydantic_config__ = DOCUMENTED
 
     key: str
     """The repository's key, as used in `keep_repository=` and `omit_repository=`."""
@@ -181,6 +183,25 @@ def list_collection_names(*, session: Session, ids: Iterable[int]) -> dict[int, 
     labels = {cid: f"{repository}: {name}" for cid, _key, name, repository in rows}
     repeated = {label for label in labels.values() if list(labels.values()).count(label) > 1}
     return {cid: f"{labels[cid]} ({key})" if labels[cid] in repeated else labels[cid] for cid, key, _n, _r in rows}
+
+
+def list_collection_repositories(*, session: Session, ids: Iterable[int]) -> dict[int, str]:
+    """Return the name of the repository holding each collection of ``ids``, keyed by collection id.
+
+    Two repositories of the same name are told apart by their keys, so counts keyed by name never
+    merge two archives.
+    """
+    wanted = sorted(set(ids))
+    if not wanted:
+        return {}
+    rows = session.execute(
+        select(Collection.id, Repository.id, Repository.key, Repository.name)
+        .join(Repository, Collection.repository_id == Repository.id)
+        .where(Collection.id.in_(wanted))
+    ).all()
+    names = {rid: name for _cid, rid, _key, name in rows}
+    repeated = {name for name in names.values() if list(names.values()).count(name) > 1}
+    return {cid: f"{name} ({key})" if name in repeated else name for cid, _rid, key, name in rows}
 
 
 def list_relation_kinds(*, session: Session) -> list[KindLabel]:

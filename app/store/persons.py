@@ -19,6 +19,7 @@ from sqlalchemy import case, func, or_, select, union, union_all
 from sqlalchemy.orm import Session
 
 from app.dates import DateInterval, format_interval
+from app.documented import DOCUMENTED
 from app.models import (
     CERTAINTIES,
     Attestation,
@@ -82,7 +83,7 @@ _sort_fold = lru_cache(maxsize=100_000)(fold)
 class PersonRef:
     """Enough about a person to name and link them."""
 
-    __pydantic_config__ = {"use_attribute_docstrings": True}
+    __pydantic_config__ = DOCUMENTED
 
     key: str
     """The person's key (the current one, after any merge)."""
@@ -98,7 +99,7 @@ class PersonRef:
 class PersonListRow:
     """One person in the index."""
 
-    __pydantic_config__ = {"use_attribute_docstrings": True}
+    __pydantic_config__ = DOCUMENTED
 
     key: str
     """The person's key."""
@@ -130,7 +131,7 @@ class PersonListRow:
 class PersonList:
     """One page of the index, searched and sorted."""
 
-    __pydantic_config__ = {"use_attribute_docstrings": True}
+    __pydantic_config__ = DOCUMENTED
 
     q: str
     """The search as typed ("" for none)."""
@@ -154,7 +155,7 @@ class PersonList:
 class LifeDate:
     """A birth or death date: as written, and as the Gregorian days it can mean."""
 
-    __pydantic_config__ = {"use_attribute_docstrings": True}
+    __pydantic_config__ = DOCUMENTED
 
     text: str
     """As written (EDTF)."""
@@ -172,7 +173,7 @@ class LifeDate:
 class Identifier:
     """An authority identifier, with the address of its record where the scheme has one."""
 
-    __pydantic_config__ = {"use_attribute_docstrings": True}
+    __pydantic_config__ = DOCUMENTED
 
     scheme: str
     """wikidata, viaf, gnd, isni, local or another scheme."""
@@ -186,7 +187,7 @@ class Identifier:
 class PersonMembership:
     """A person's membership of a group, with how much evidence it has."""
 
-    __pydantic_config__ = {"use_attribute_docstrings": True}
+    __pydantic_config__ = DOCUMENTED
 
     group_key: str
     """Key of the group."""
@@ -210,7 +211,7 @@ class PersonMembership:
 class PersonFactRow:
     """A cited fact about the person, with its sources."""
 
-    __pydantic_config__ = {"use_attribute_docstrings": True}
+    __pydantic_config__ = DOCUMENTED
 
     kind: str
     """birth, death, occupation, title, residence, gender or other."""
@@ -232,7 +233,7 @@ class PersonFactRow:
 class PersonRelation:
     """One relation of the person, seen from the person."""
 
-    __pydantic_config__ = {"use_attribute_docstrings": True}
+    __pydantic_config__ = DOCUMENTED
 
     relation_id: int
     """Id of the relation (its page is /relations/{id})."""
@@ -262,7 +263,7 @@ class PersonRelation:
 class RelationKindGroup:
     """The person's relations of one kind."""
 
-    __pydantic_config__ = {"use_attribute_docstrings": True}
+    __pydantic_config__ = DOCUMENTED
 
     kind_key: str
     """Key of the relation kind."""
@@ -284,7 +285,7 @@ class RelationKindGroup:
 class PersonDetail:
     """Everything recorded about one person."""
 
-    __pydantic_config__ = {"use_attribute_docstrings": True}
+    __pydantic_config__ = DOCUMENTED
 
     key: str
     """The person's key."""

@@ -13,6 +13,7 @@ from dataclasses import dataclass
 from sqlalchemy import func, select
 from sqlalchemy.orm import Session
 
+from app.documented import DOCUMENTED
 from app.models import Attestation, Group, Person, PersonFact, Place, Repository, Source
 from app.store.persons import PersonRef
 
@@ -23,7 +24,7 @@ __all__ = ["GroupAtPlace", "LocatedFact", "PlaceDetail", "RepositoryAtPlace", "g
 class LocatedFact:
     """A fact about a person located at the place (residence, place of birth, ...)."""
 
-    __pydantic_config__ = {"use_attribute_docstrings": True}
+    __pydantic_config__ = DOCUMENTED
 
     person: PersonRef
     """The person the fact is about."""
@@ -41,7 +42,7 @@ class LocatedFact:
 class GroupAtPlace:
     """A group located at the place."""
 
-    __pydantic_config__ = {"use_attribute_docstrings": True}
+    __pydantic_config__ = DOCUMENTED
 
     key: str
     """The group's key."""
@@ -59,7 +60,7 @@ class GroupAtPlace:
 class RepositoryAtPlace:
     """A repository located at the place."""
 
-    __pydantic_config__ = {"use_attribute_docstrings": True}
+    __pydantic_config__ = DOCUMENTED
 
     key: str
     """The repository's key."""
@@ -71,7 +72,7 @@ class RepositoryAtPlace:
 class PlaceDetail:
     """One place and what the dataset locates there."""
 
-    __pydantic_config__ = {"use_attribute_docstrings": True}
+    __pydantic_config__ = DOCUMENTED
 
     key: str
     """The place's key."""

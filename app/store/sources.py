@@ -15,6 +15,7 @@ from sqlalchemy import ColumnElement, and_, distinct, func, or_, select, union
 from sqlalchemy.orm import Session, aliased, joinedload
 
 from app.dates import DateError, parse_interval
+from app.documented import DOCUMENTED
 from app.models import (
     Attestation,
     Collection,
@@ -71,7 +72,7 @@ _DATE_WORD = re.compile(r"\d{3,4}|\d{4}\S+")  # a year, or what may be an EDTF d
 class PlaceRef:
     """A place named on a page, with the key its page is found under."""
 
-    __pydantic_config__ = {"use_attribute_docstrings": True}
+    __pydantic_config__ = DOCUMENTED
 
     key: str
     """The place's key."""
@@ -83,7 +84,7 @@ class PlaceRef:
 class SourceRef:
     """Another document named on a page (an original, a copy)."""
 
-    __pydantic_config__ = {"use_attribute_docstrings": True}
+    __pydantic_config__ = DOCUMENTED
 
     key: str
     """The source's key."""
@@ -100,7 +101,7 @@ class SourceRef:
 class SourceRow:
     """One document in a list of documents."""
 
-    __pydantic_config__ = {"use_attribute_docstrings": True}
+    __pydantic_config__ = DOCUMENTED
 
     key: str
     """The source's key."""
@@ -128,7 +129,7 @@ class SourceRow:
 class SourceList:
     """One page of a list of documents, and how many there are in all."""
 
-    __pydantic_config__ = {"use_attribute_docstrings": True}
+    __pydantic_config__ = DOCUMENTED
 
     rows: list[SourceRow]
     """The documents of this page."""
@@ -282,7 +283,7 @@ def _natural(text: str | None) -> tuple:
 class AttestedRelation:
     """A relation as one document attests it."""
 
-    __pydantic_config__ = {"use_attribute_docstrings": True}
+    __pydantic_config__ = DOCUMENTED
 
     attestation_key: str
     """Key of the attestation."""
@@ -328,7 +329,7 @@ class AttestedRelation:
 class AttestedMembership:
     """A membership of a group as one document attests it."""
 
-    __pydantic_config__ = {"use_attribute_docstrings": True}
+    __pydantic_config__ = DOCUMENTED
 
     attestation_key: str
     """Key of the attestation."""
@@ -362,7 +363,7 @@ class AttestedMembership:
 class AttestedFact:
     """A statement about one person as one document attests it."""
 
-    __pydantic_config__ = {"use_attribute_docstrings": True}
+    __pydantic_config__ = DOCUMENTED
 
     attestation_key: str
     """Key of the attestation."""
@@ -392,7 +393,7 @@ class AttestedFact:
 class SourceDetail:
     """One document: how to cite it, when and where it was written, and everything it attests."""
 
-    __pydantic_config__ = {"use_attribute_docstrings": True}
+    __pydantic_config__ = DOCUMENTED
 
     key: str
     """The source's key."""
@@ -567,7 +568,7 @@ def _facts(session: Session, source_id: int) -> list[AttestedFact]:
 class RepositoryRow:
     """One archive or library in the list of repositories."""
 
-    __pydantic_config__ = {"use_attribute_docstrings": True}
+    __pydantic_config__ = DOCUMENTED
 
     key: str
     """The repository's key."""
@@ -585,7 +586,7 @@ class RepositoryRow:
 class CollectionRow:
     """One collection of a repository, with how many documents it holds and over which years."""
 
-    __pydantic_config__ = {"use_attribute_docstrings": True}
+    __pydantic_config__ = DOCUMENTED
 
     key: str
     """The collection's key."""
@@ -607,7 +608,7 @@ class CollectionRow:
 class RepositoryDetail:
     """One archive or library and its collections."""
 
-    __pydantic_config__ = {"use_attribute_docstrings": True}
+    __pydantic_config__ = DOCUMENTED
 
     key: str
     """The repository's key."""
@@ -627,7 +628,7 @@ class RepositoryDetail:
 class EvidenceTotals:
     """What a set of documents attests (attestations that are not deleted)."""
 
-    __pydantic_config__ = {"use_attribute_docstrings": True}
+    __pydantic_config__ = DOCUMENTED
 
     attestations: int
     """Attestations."""
@@ -645,7 +646,7 @@ class EvidenceTotals:
 class CollectionDetail:
     """One collection: where it is kept and what its documents attest."""
 
-    __pydantic_config__ = {"use_attribute_docstrings": True}
+    __pydantic_config__ = DOCUMENTED
 
     key: str
     """The collection's key."""

@@ -8,6 +8,7 @@ from datetime import date
 from sqlalchemy import ColumnElement, ScalarSelect, exists, func, select
 from sqlalchemy.orm import Session
 
+from app.documented import DOCUMENTED
 from app.models import (
     CERTAINTIES,
     Attestation,
@@ -29,7 +30,7 @@ class DatasetSummary:
     """Counts of what the dataset holds; deleted attestations and the ties left without one are not counted."""
 
     # Lets the API documentation take each field's description from its docstring.
-    __pydantic_config__ = {"use_attribute_docstrings": True}
+    __pydantic_config__ = DOCUMENTED
 
     persons: int
     """Persons, identified or not, individual or corporate."""

@@ -9,6 +9,7 @@ from dataclasses import dataclass
 from sqlalchemy import and_, func, or_, select
 from sqlalchemy.orm import Session
 
+from app.documented import DOCUMENTED
 from app.models import Attestation, Relation, RelationKind
 from app.store.attestations import CitedAttestation, EvidenceCounts, count_evidence, get_cited_attestations
 from app.store.persons import PersonRef, person_refs
@@ -20,7 +21,7 @@ __all__ = ["RelationDetail", "RelationEvidence", "TiesBetween", "get_relation", 
 class RelationEvidence:
     """One relation with the attestations shown for it."""
 
-    __pydantic_config__ = {"use_attribute_docstrings": True}
+    __pydantic_config__ = DOCUMENTED
 
     relation_id: int
     """Id of the relation."""
@@ -50,7 +51,7 @@ class RelationEvidence:
 class TiesBetween:
     """Every relation between two persons, with the attestations a slice keeps."""
 
-    __pydantic_config__ = {"use_attribute_docstrings": True}
+    __pydantic_config__ = DOCUMENTED
 
     relations: list[RelationEvidence]
     """Relations with at least one attestation kept, by kind, the first person's direction first."""
@@ -66,7 +67,7 @@ class TiesBetween:
 class RelationDetail:
     """One relation with all its attestations that are not deleted."""
 
-    __pydantic_config__ = {"use_attribute_docstrings": True}
+    __pydantic_config__ = DOCUMENTED
 
     relation: RelationEvidence
     """The relation and its attestations."""

@@ -22,6 +22,7 @@ from app.auth import (
     sign_in,
     start_session,
 )
+from app.documented import DOCUMENTED
 from app.models import ROLES
 from app.store.users import UserError, UserInfo, count_users, create_user, disable_user, list_users
 from app.views.common import SessionDep, is_api_request, render, urls_for
@@ -36,7 +37,7 @@ GENERATED_PASSWORD_BYTES = 15  # 20 characters of URL-safe base64
 class LoginPage:
     """The sign-in form, and who is signed in now."""
 
-    __pydantic_config__ = {"use_attribute_docstrings": True}
+    __pydantic_config__ = DOCUMENTED
 
     signed_in_as: str | None
     """Name of the signed-in user ("local" for the local user of a laptop instance), or null."""
@@ -65,7 +66,7 @@ class CreatedUser:
 class UsersPage:
     """Every user with role and state, and the forms to add and disable users."""
 
-    __pydantic_config__ = {"use_attribute_docstrings": True}
+    __pydantic_config__ = DOCUMENTED
 
     users: list[UserInfo]
     """Every user by name (never a password hash)."""

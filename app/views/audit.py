@@ -15,6 +15,7 @@ from fastapi.responses import HTMLResponse, RedirectResponse, Response
 
 from app.auth import AdminActor, CsrfChecked, EditorActor
 from app.dates import DateError, interval_or_none
+from app.documented import DOCUMENTED
 from app.store.audit import AUDITED_TABLES, AuditList, AuditRow, get_change, list_changes, redact_change
 from app.store.network_labels import list_person_labels_by_key
 from app.views.common import BadParameter, SessionDep, page_number, render, urls_for
@@ -29,7 +30,7 @@ router = APIRouter(tags=["audit"])
 class AuditPage:
     """One page of the audit trail, newest first, with its filters."""
 
-    __pydantic_config__ = {"use_attribute_docstrings": True}
+    __pydantic_config__ = DOCUMENTED
 
     changes: AuditList
     """The entries of this page, how many match, and the filters."""
@@ -43,7 +44,7 @@ class AuditPage:
 class AuditEntryPage:
     """One audit entry with its record before and after."""
 
-    __pydantic_config__ = {"use_attribute_docstrings": True}
+    __pydantic_config__ = DOCUMENTED
 
     entry: AuditRow
     """Who, when, what table and record, before and after."""

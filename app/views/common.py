@@ -26,6 +26,7 @@ from sqlalchemy.orm import Session
 from app.auth import csrf_token, current_actor
 from app.config import Settings
 from app.dates import season_words
+from app.documented import DOCUMENTED
 from app.network.slice import Slice, SliceError
 from app.store.summary import get_data_version
 
@@ -438,7 +439,7 @@ def render(
 class ErrorPage:
     """A request that could not be answered, and why."""
 
-    __pydantic_config__ = {"use_attribute_docstrings": True}
+    __pydantic_config__ = DOCUMENTED
 
     error: str
     """What went wrong, in a few words ("not found", "bad parameter")."""

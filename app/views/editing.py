@@ -21,6 +21,7 @@ from starlette.concurrency import run_in_threadpool
 from app.auth import CsrfChecked, EditorActor
 from app.dates import CALENDARS
 from app.db import DatabaseBusy
+from app.documented import DOCUMENTED
 from app.models import CERTAINTIES, EVIDENCE_KINDS, PERSON_KINDS
 from app.store import editing
 from app.store.editing import AttestationInput, EditError, FieldChange, StaleEdit
@@ -67,7 +68,7 @@ class StaleNotice:
 class FormPage:
     """A form page: where it posts, its fields, and what went wrong with the last save."""
 
-    __pydantic_config__ = {"use_attribute_docstrings": True}
+    __pydantic_config__ = DOCUMENTED
 
     title: str
     """The heading of the form."""

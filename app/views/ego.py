@@ -18,6 +18,7 @@ from fastapi.responses import HTMLResponse, Response
 from sqlalchemy.orm import Session
 
 from app.auth import request_visibility
+from app.documented import DOCUMENTED
 from app.network.drawing import Drawing, ego_drawing
 from app.network.ego import EgoEdge, EgoNetwork, EgoNode
 from app.network.ego_memberships import ego_network_in_mode
@@ -39,7 +40,7 @@ RADII = ("1", "2")
 class EgoPanel:
     """The ego network of one person in one slice, drawn and listed."""
 
-    __pydantic_config__ = {"use_attribute_docstrings": True}
+    __pydantic_config__ = DOCUMENTED
 
     key: str
     """Key of the ego."""

@@ -11,6 +11,7 @@ from fastapi import APIRouter, HTTPException, Request
 from fastapi.responses import HTMLResponse, Response
 from sqlalchemy.orm import Session
 
+from app.documented import DOCUMENTED
 from app.network.group_drawing import GroupNeighbourhood, neighbourhood_of_group
 from app.network.slice import Slice, resolve_slice
 from app.store.groups import GroupDetail, GroupList, TermDate, get_group, list_group_kinds, search_groups
@@ -27,7 +28,7 @@ router = APIRouter(tags=["groups"])
 class GroupsPage:
     """The index of groups: a search, a kind filter and the groups found, as a tree."""
 
-    __pydantic_config__ = {"use_attribute_docstrings": True}
+    __pydantic_config__ = DOCUMENTED
 
     result: GroupList
     """The groups found with their member counts, each parent before its sub-groups."""
@@ -37,7 +38,7 @@ class GroupsPage:
 class GroupPage:
     """Everything recorded about one group, and its members with the other groups they share."""
 
-    __pydantic_config__ = {"use_attribute_docstrings": True}
+    __pydantic_config__ = DOCUMENTED
 
     group: GroupDetail
     """Place, dates, parent and sub-groups, and every live membership with its citations."""

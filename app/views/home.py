@@ -9,6 +9,7 @@ from fastapi.responses import HTMLResponse, Response
 from sqlalchemy.orm import Session
 
 from app.config import Settings
+from app.documented import DOCUMENTED
 from app.store.summary import DatasetSummary, get_summary
 from app.views.common import SessionDep, SettingsDep, render
 
@@ -19,7 +20,7 @@ router = APIRouter(tags=["dataset"])
 class HomePage:
     """The dataset at a glance."""
 
-    __pydantic_config__ = {"use_attribute_docstrings": True}
+    __pydantic_config__ = DOCUMENTED
 
     dataset_name: str
     """Name of the dataset, as configured for this instance."""

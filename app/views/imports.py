@@ -17,6 +17,7 @@ from fastapi import APIRouter, File, Form, HTTPException, Request, UploadFile
 from fastapi.responses import HTMLResponse, JSONResponse, RedirectResponse, Response
 
 from app.auth import CsrfChecked, EditorActor
+from app.documented import DOCUMENTED
 from app.exchange.mapping import SheetMapping, mapping_json
 from app.exchange.uploads import (
     DECISIONS,
@@ -52,7 +53,7 @@ FORM_ALLOWANCE = 1 << 20  # room for the form's other fields beside the files
 class ImportStartPage:
     """The upload form."""
 
-    __pydantic_config__ = {"use_attribute_docstrings": True}
+    __pydantic_config__ = DOCUMENTED
 
     limit_mb: int
     """The largest upload accepted, in MB (setting ATTESTA_UPLOAD_LIMIT_MB)."""
@@ -68,7 +69,7 @@ class ImportStartPage:
 class ImportPage:
     """One upload: the mapping step, the preview, the progress of the import, or its result."""
 
-    __pydantic_config__ = {"use_attribute_docstrings": True}
+    __pydantic_config__ = DOCUMENTED
 
     token: str
     """The upload's token (kept on the server until confirmed or expired)."""

@@ -93,12 +93,12 @@ router = APIRouter(tags=["network"])
 VIEWS = ("summary", "centrality", "components", "cut-points", "cliques", "communities")
 SORTS = {"rank": "asc", "name": "asc", "value": "desc", "raw": "desc"}
 """Columns of the ranked table that can be sorted, with their first order."""
-PAGE_SIZE = 500
+PAGE_SIZE = 100
+"""Rows of a ranked table per page (the CSV download holds them all; ranks are those of the whole table)."""
 ROWS_SHOWN = 300
 """Groups (components, cliques) and persons (isolates, per person) listed on a page; the CSV holds all."""
 MEMBERS_SHOWN = 60
 """Members listed of each component, clique or community on a page; the CSV holds all."""
-"""Rows of a ranked table per page (the CSV download holds them all)."""
 MAX_SEED = 2**31 - 1
 EMPTY_NOTE = ("No person is in this slice, so there is nothing to measure. The slice keeps no evidence: widen it "
               "(more relation kinds, a longer period, a lower certainty, more archives) with the form above.")
@@ -175,7 +175,7 @@ def summary_view(
         largest_share=p["largest_share"], diameter=p["diameter"], average_path_length=p["average_path_length"],
         path_component=path_component, degree_distribution=distribution,
         in_degree_distribution=_degrees(p["in_degree_distribution"]), out_degree_distribution=_degrees(p["out_degree_distribution"]),
-        warnings=p["warnings"],
+        warnings=p["warnings"], concentration=p.get("concentration"),
         collections=[CollectionShare(name, count, count / counted) for name, count in p["collections"]],
         printed_attestations=p["printed_attestations"],
         context=_context(session, "summary", slice, outcome, [],
@@ -211,14 +211,20 @@ def centrality_view(
     elif recompute:
         outcome = _outcome(database, measure, slice, options, recompute)
     else:
-        found = _background(database, worker, measure, options, slice, requested_by, inline_up_to)
+        # Stored exact figures replace an estimate: look for them first, so that a process reading
+        # them for the first time does not parse the estimate as well.
+        exact_first = (peek_outcome(database, measure=measure, slice=slice, options={"exact": True},
+                                    visibility=request_visibility()) if not options and measure in SAMPLED else None)
+        if exact_first is not None and exact_first.changes_since:
+            exact_first = None  # after a write the default result may be newer: as below, estimate first
+        found = exact_first or _background(database, worker, measure, options, slice, requested_by, inline_up_to)
         if isinstance(found, Pending) and measure in SAMPLED:  # the estimate meanwhile
             job, outcome = _job_view(found, measure), _outcome(database, measure, slice, {}, False)
         elif isinstance(found, Pending):
             job, outcome = _job_view(found, measure), _pending_outcome(database, measure, slice)
         else:
             outcome = found
-        if not options and measure in SAMPLED and outcome.payload.get("sampling"):
+        if exact_first is None and not options and measure in SAMPLED and outcome.payload.get("sampling"):
             # An estimate: the exact figures replace it once stored; on a large slice they are queued at once.
             exact_stored = peek_outcome(database, measure=measure, slice=slice, options={"exact": True},
                                         visibility=request_visibility())
@@ -259,7 +265,7 @@ def centrality_view(
     return CentralityPage(
         measure=measure, slice=slice, conventions=p["conventions"], computed_at_version=outcome.computed_at_version,
         rows=rows, definition=MEASURE_INFO[measure], measures=_choices(slice), sort=sort, order=order, page=number,
-        pages=pages, total=total, engine=p["engine"], estimate=sampling is not None,
+        pages=pages, total=total, page_size=PAGE_SIZE, engine=p["engine"], estimate=sampling is not None,
         samples=sampling["samples"] if sampling else None, sampling_statement=sampling["statement"] if sampling else None,
         exact=wants_exact, context=_context(session, "centrality", slice, outcome, parameters, ["ranking"]), job=job,
     )  # fmt: skip
@@ -349,8 +355,15 @@ def communities_view(
     job = None
     if needs_worker("communities", options, slice_size(database, slice, request_visibility()), inline_up_to):
         # A large slice: one seed's partition at once, its stability across seeds from the background worker.
-        quick = _outcome(database, "communities", slice, {**options, "runs": 1}, recompute)
-        outcome, job = _refined(database, worker, "communities", options, slice, quick, recompute, requested_by, inline_up_to)
+        # The full result, when stored, is looked for first: no parsing of the one-seed partition too.
+        stored = None if recompute else peek_outcome(database, measure="communities", slice=slice, options=options,
+                                                     visibility=request_visibility())
+        if stored is not None:
+            outcome = stored
+        else:
+            quick = _outcome(database, "communities", slice, {**options, "runs": 1}, recompute)
+            outcome, job = _refined(database, worker, "communities", options, slice, quick, recompute, requested_by,
+                                    inline_up_to)
     else:
         outcome = _outcome(database, "communities", slice, options, recompute)
     p = outcome.payload

@@ -8,6 +8,7 @@ from __future__ import annotations
 from dataclasses import dataclass, field
 from datetime import datetime
 
+from app.documented import DOCUMENTED
 from app.network.definitions import Definition
 from app.network.slice import Slice
 from app.store.persons import PersonRef
@@ -50,7 +51,7 @@ __all__ = [
 class Freshness:
     """When a result was computed, and how many writes the data has seen since."""
 
-    __pydantic_config__ = {"use_attribute_docstrings": True}
+    __pydantic_config__ = DOCUMENTED
 
     computed_at_version: int
     """The data version the result was computed at."""
@@ -74,7 +75,7 @@ class Freshness:
 class PageContext:
     """What every measure page shows around its results."""
 
-    __pydantic_config__ = {"use_attribute_docstrings": True}
+    __pydantic_config__ = DOCUMENTED
 
     view: str
     """The page's path under /network/ (``centrality``)."""
@@ -110,7 +111,7 @@ class PageContext:
 class PageLink:
     """One measure page offered on the landing page."""
 
-    __pydantic_config__ = {"use_attribute_docstrings": True}
+    __pydantic_config__ = DOCUMENTED
 
     view: str
     """Its path under /network/."""
@@ -124,7 +125,7 @@ class PageLink:
 class NetworkIndex:
     """The landing page of the measures: every measure page, for the current slice."""
 
-    __pydantic_config__ = {"use_attribute_docstrings": True}
+    __pydantic_config__ = DOCUMENTED
 
     slice: Slice
     """The slice the pages will measure."""
@@ -145,7 +146,7 @@ class NetworkIndex:
 class DegreeCount:
     """How many persons have one degree."""
 
-    __pydantic_config__ = {"use_attribute_docstrings": True}
+    __pydantic_config__ = DOCUMENTED
 
     degree: int
     """The number of ties."""
@@ -157,7 +158,7 @@ class DegreeCount:
 class CollectionShare:
     """The attestations of the slice's ties that one collection holds."""
 
-    __pydantic_config__ = {"use_attribute_docstrings": True}
+    __pydantic_config__ = DOCUMENTED
 
     name: str
     """The collection's name."""
@@ -171,7 +172,7 @@ class CollectionShare:
 class SummaryPage:
     """The slice at a glance."""
 
-    __pydantic_config__ = {"use_attribute_docstrings": True}
+    __pydantic_config__ = DOCUMENTED
 
     slice: Slice
     """The slice measured."""
@@ -216,7 +217,9 @@ class SummaryPage:
     out_degree_distribution: list[DegreeCount] | None
     """Persons per out-degree (directed slices only)."""
     warnings: list[str]
-    """What limits the figures: a small slice, evidence concentrated in one collection."""
+    """What limits the figures: a small slice, evidence concentrated in one repository or one collection."""
+    concentration: str | None
+    """The largest repository's and the largest collection's shares of the attestations, and the warning's threshold."""
     collections: list[CollectionShare]
     """Attestations behind the ties per collection, most first."""
     printed_attestations: int
@@ -234,7 +237,7 @@ class SummaryPage:
 class CentralityRow:
     """One person's line in the ranked table."""
 
-    __pydantic_config__ = {"use_attribute_docstrings": True}
+    __pydantic_config__ = DOCUMENTED
 
     rank: int | None
     """Competition rank (1, 2, 2, 4): equal values share a rank; None for an undefined value."""
@@ -260,7 +263,7 @@ class CentralityRow:
 class MeasureChoice:
     """One measure in the chooser."""
 
-    __pydantic_config__ = {"use_attribute_docstrings": True}
+    __pydantic_config__ = DOCUMENTED
 
     name: str
     """Its name in URLs."""
@@ -276,7 +279,7 @@ class MeasureChoice:
 class BackgroundJob:
     """A heavy measure computed by the background worker, as a page shows it while it waits."""
 
-    __pydantic_config__ = {"use_attribute_docstrings": True}
+    __pydantic_config__ = DOCUMENTED
 
     id: int | None
     """The job's number (None when it could not be queued)."""
@@ -298,7 +301,7 @@ class BackgroundJob:
 class CentralityPage:
     """Persons ranked by one centrality."""
 
-    __pydantic_config__ = {"use_attribute_docstrings": True}
+    __pydantic_config__ = DOCUMENTED
 
     measure: str
     """The measure's name in URLs."""
@@ -324,6 +327,8 @@ class CentralityPage:
     """Number of pages."""
     total: int
     """Rows in the whole table (one per person)."""
+    page_size: int
+    """Rows per page (the CSV download holds every row)."""
     engine: str
     """The library that computed the figures (networkx or igraph)."""
     estimate: bool
@@ -347,7 +352,7 @@ class CentralityPage:
 class ComponentRow:
     """One component and its members."""
 
-    __pydantic_config__ = {"use_attribute_docstrings": True}
+    __pydantic_config__ = DOCUMENTED
 
     number: int
     """1 for the largest."""
@@ -363,7 +368,7 @@ class ComponentRow:
 class ComponentsPage:
     """Every component of the slice, largest first, isolates included."""
 
-    __pydantic_config__ = {"use_attribute_docstrings": True}
+    __pydantic_config__ = DOCUMENTED
 
     slice: Slice
     """The slice measured."""
@@ -397,7 +402,7 @@ class ComponentsPage:
 class CutPointRow:
     """A person whose removal splits their component."""
 
-    __pydantic_config__ = {"use_attribute_docstrings": True}
+    __pydantic_config__ = DOCUMENTED
 
     person: PersonRef
     """The person."""
@@ -413,7 +418,7 @@ class CutPointRow:
 class BridgeRow:
     """A tie whose removal splits its component."""
 
-    __pydantic_config__ = {"use_attribute_docstrings": True}
+    __pydantic_config__ = DOCUMENTED
 
     a: PersonRef
     """One end."""
@@ -437,7 +442,7 @@ class BridgeRow:
 class CutPointsPage:
     """Cut points and bridges of the slice."""
 
-    __pydantic_config__ = {"use_attribute_docstrings": True}
+    __pydantic_config__ = DOCUMENTED
 
     slice: Slice
     """The slice measured."""
@@ -459,7 +464,7 @@ class CutPointsPage:
 class CliqueRow:
     """One maximal clique."""
 
-    __pydantic_config__ = {"use_attribute_docstrings": True}
+    __pydantic_config__ = DOCUMENTED
 
     number: int
     """1 for the first listed (a largest one)."""
@@ -473,7 +478,7 @@ class CliqueRow:
 class PersonCount:
     """How many listed cliques one person is in."""
 
-    __pydantic_config__ = {"use_attribute_docstrings": True}
+    __pydantic_config__ = DOCUMENTED
 
     person: PersonRef
     """The person."""
@@ -485,7 +490,7 @@ class PersonCount:
 class CliquesPage:
     """The maximal cliques of at least min_size persons."""
 
-    __pydantic_config__ = {"use_attribute_docstrings": True}
+    __pydantic_config__ = DOCUMENTED
 
     slice: Slice
     """The slice measured."""
@@ -521,7 +526,7 @@ class CliquesPage:
 class CommunityMember:
     """A person in a community, with how stably they fall there."""
 
-    __pydantic_config__ = {"use_attribute_docstrings": True}
+    __pydantic_config__ = DOCUMENTED
 
     person: PersonRef
     """The person."""
@@ -533,7 +538,7 @@ class CommunityMember:
 class CommunityRow:
     """One community."""
 
-    __pydantic_config__ = {"use_attribute_docstrings": True}
+    __pydantic_config__ = DOCUMENTED
 
     number: int
     """1 for the largest."""
@@ -551,7 +556,7 @@ class CommunityRow:
 class CommunityLinkRow:
     """The ties between two communities."""
 
-    __pydantic_config__ = {"use_attribute_docstrings": True}
+    __pydantic_config__ = DOCUMENTED
 
     a: int
     """The first community's number."""
@@ -567,7 +572,7 @@ class CommunityLinkRow:
 class StabilityInfo:
     """How far runs with other seeds agree with each other."""
 
-    __pydantic_config__ = {"use_attribute_docstrings": True}
+    __pydantic_config__ = DOCUMENTED
 
     seeds: list[int]
     """The seeds of the runs compared."""
@@ -583,7 +588,7 @@ class StabilityInfo:
 class CommunitiesPage:
     """Communities of the slice found by one method and seed, and their stability."""
 
-    __pydantic_config__ = {"use_attribute_docstrings": True}
+    __pydantic_config__ = DOCUMENTED
 
     slice: Slice
     """The slice measured."""
@@ -630,7 +635,7 @@ class CommunitiesPage:
 class PersonMeasureRow:
     """One person's figure for one centrality."""
 
-    __pydantic_config__ = {"use_attribute_docstrings": True}
+    __pydantic_config__ = DOCUMENTED
 
     measure: str
     """The measure's name in URLs."""
@@ -660,7 +665,7 @@ class PersonMeasureRow:
 class PersonMeasures:
     """One person's value and rank for each centrality in the slice."""
 
-    __pydantic_config__ = {"use_attribute_docstrings": True}
+    __pydantic_config__ = DOCUMENTED
 
     key: str
     """The person's key."""

@@ -9,6 +9,7 @@ from fastapi import APIRouter, HTTPException, Request
 from fastapi.responses import HTMLResponse, RedirectResponse, Response
 from sqlalchemy.orm import Session
 
+from app.documented import DOCUMENTED
 from app.network.slice import Slice, relation_totals, resolve_slice
 from app.store.persons import (
     PERSON_SORTS,
@@ -40,7 +41,7 @@ router = APIRouter(tags=["persons"])
 class PersonsPage:
     """The index of persons: a search, a sort and one page of results."""
 
-    __pydantic_config__ = {"use_attribute_docstrings": True}
+    __pydantic_config__ = DOCUMENTED
 
     result: PersonList
     """The persons found, this page of them, and how they are sorted."""
@@ -56,7 +57,7 @@ RELATION_LIMIT = 200
 class PersonPage:
     """Everything recorded about one person, and the slice that links to ties keep."""
 
-    __pydantic_config__ = {"use_attribute_docstrings": True}
+    __pydantic_config__ = DOCUMENTED
 
     person: PersonDetail
     """Names, dates, identifiers, memberships, cited facts and relations."""

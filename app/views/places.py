@@ -8,6 +8,7 @@ from fastapi import APIRouter, HTTPException, Request
 from fastapi.responses import HTMLResponse, Response
 from sqlalchemy.orm import Session
 
+from app.documented import DOCUMENTED
 from app.network.slice import Slice
 from app.store.places import PlaceDetail, get_place
 from app.store.sources import SourceList, search_sources
@@ -22,7 +23,7 @@ router = APIRouter(tags=["documents"])
 class PlacePage:
     """One place and what points to it: documents, facts, groups and repositories."""
 
-    __pydantic_config__ = {"use_attribute_docstrings": True}
+    __pydantic_config__ = DOCUMENTED
 
     place: PlaceDetail
     """Name, variants, coordinates, gazetteer identifier, and the facts, groups and repositories there."""

@@ -12,6 +12,7 @@ from fastapi import APIRouter, HTTPException, Request
 from fastapi.responses import HTMLResponse, RedirectResponse, Response
 
 from app.auth import CsrfChecked, EditorActor
+from app.documented import DOCUMENTED
 from app.store import editing, merging
 from app.store.attestations import CitedAttestation, get_cited_attestations
 from app.store.editing import DeletedAttestation, EditError, MembershipDetail
@@ -31,7 +32,7 @@ router = APIRouter(tags=["editing"])
 class MembershipPage:
     """One membership with its attestations, the deleted ones (restorable) and its version."""
 
-    __pydantic_config__ = {"use_attribute_docstrings": True}
+    __pydantic_config__ = DOCUMENTED
 
     membership: MembershipDetail
     """Person, group, role, recorded term and version."""
@@ -74,7 +75,7 @@ def membership_api(request: Request, membership_id: int, session: SessionDep) ->
 class MergePage:
     """The merge form: two persons picked, and what merging them would do."""
 
-    __pydantic_config__ = {"use_attribute_docstrings": True}
+    __pydantic_config__ = DOCUMENTED
 
     kept: str
     """The key of the person who stays."""
@@ -137,7 +138,7 @@ async def merge(request: Request, session: SessionDep, _: CsrfChecked, actor: Ed
 class SplitPage:
     """The split form: a person's attestations and spellings, to choose those of a new person."""
 
-    __pydantic_config__ = {"use_attribute_docstrings": True}
+    __pydantic_config__ = DOCUMENTED
 
     key: str
     """The person split."""

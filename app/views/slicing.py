@@ -10,6 +10,7 @@ from dataclasses import dataclass
 
 from sqlalchemy.orm import Session
 
+from app.documented import DOCUMENTED
 from app.models import EVIDENCE_KINDS
 from app.network.slice import Slice
 from app.store.network_labels import list_archives, list_relation_kinds
@@ -49,7 +50,7 @@ SHOWN = {name for names in GROUPS.values() for name in names}
 class Choice:
     """One value of a slice parameter, as a radio button or a checkbox."""
 
-    __pydantic_config__ = {"use_attribute_docstrings": True}
+    __pydantic_config__ = DOCUMENTED
 
     value: str
     """The value sent in the query string."""
@@ -63,7 +64,7 @@ class Choice:
 class KindChoice:
     """One relation kind in the tree of kinds."""
 
-    __pydantic_config__ = {"use_attribute_docstrings": True}
+    __pydantic_config__ = DOCUMENTED
 
     key: str
     """The kind's key (the value of `kind=`)."""
@@ -83,7 +84,7 @@ class KindChoice:
 class ArchiveChoice:
     """One repository or collection, which the slice may keep alone or leave out."""
 
-    __pydantic_config__ = {"use_attribute_docstrings": True}
+    __pydantic_config__ = DOCUMENTED
 
     level: str
     """repository or collection."""
@@ -101,7 +102,7 @@ class ArchiveChoice:
 class SliceControls:
     """The slice form: every choice with what the current slice has chosen."""
 
-    __pydantic_config__ = {"use_attribute_docstrings": True}
+    __pydantic_config__ = DOCUMENTED
 
     summary: str
     """The slice in one line of plain words."""

@@ -14,6 +14,7 @@ from fastapi.responses import HTMLResponse, Response
 from sqlalchemy.orm import Session
 
 from app.dates import DateError, parse_interval
+from app.documented import DOCUMENTED
 from app.network.slice import Slice
 from app.store.sources import (
     SOURCE_SORTS,
@@ -94,7 +95,7 @@ def _place(session: Session, name: str, key: str | None) -> PlaceRef | None:
 class SourcesPage:
     """The index of sources: the filters as given, and one page of the documents that match."""
 
-    __pydantic_config__ = {"use_attribute_docstrings": True}
+    __pydantic_config__ = DOCUMENTED
 
     q: str
     """The search: shelfmark, title, author or collection words, and years or EDTF dates."""
@@ -195,7 +196,7 @@ def sources_page(
 class SourcePage:
     """One document and everything it attests."""
 
-    __pydantic_config__ = {"use_attribute_docstrings": True}
+    __pydantic_config__ = DOCUMENTED
 
     source: SourceDetail
     """The document: citation, dates, places, copies and its live attestations."""
@@ -239,7 +240,7 @@ def source_page(request: Request, key: str, session: SessionDep, slice_: SliceDe
 class RepositoriesPage:
     """Every archive and library that holds documents."""
 
-    __pydantic_config__ = {"use_attribute_docstrings": True}
+    __pydantic_config__ = DOCUMENTED
 
     repositories: list[RepositoryRow]
     """The repositories by name, with counts of their collections and documents."""
@@ -258,7 +259,7 @@ def repositories_view(*, session: Session) -> RepositoriesPage:
 class RepositoryPage:
     """One archive or library and its collections."""
 
-    __pydantic_config__ = {"use_attribute_docstrings": True}
+    __pydantic_config__ = DOCUMENTED
 
     repository: RepositoryDetail
     """The repository, its place and note, and its collections with counts and date spans."""
@@ -276,7 +277,7 @@ def repository_view(*, session: Session, key: str) -> RepositoryPage:
 class CollectionPage:
     """One collection: its repository, what its documents attest, and one page of its documents."""
 
-    __pydantic_config__ = {"use_attribute_docstrings": True}
+    __pydantic_config__ = DOCUMENTED
 
     collection: CollectionDetail
     """The collection with counts of what its documents attest."""

@@ -9,6 +9,7 @@ from fastapi import APIRouter, HTTPException, Request
 from fastapi.responses import HTMLResponse, Response
 from sqlalchemy.orm import Session
 
+from app.documented import DOCUMENTED
 from app.network.slice import Slice, relation_evidence, resolve_slice
 from app.network.twomode import MembershipEvidence, describe_term, groups_in_common, membership_evidence
 from app.store.attestations import CitedAttestation, get_cited_attestations
@@ -28,7 +29,7 @@ router = APIRouter(tags=["ties"])
 class MembershipInCommon:
     """One person's membership of a shared group, with its term and its evidence."""
 
-    __pydantic_config__ = {"use_attribute_docstrings": True}
+    __pydantic_config__ = DOCUMENTED
 
     role: str
     """Role in the group ("" when none is recorded)."""
@@ -46,7 +47,7 @@ class MembershipInCommon:
 class GroupInCommon:
     """A group both persons belong to, with the memberships of each and whether their terms overlap."""
 
-    __pydantic_config__ = {"use_attribute_docstrings": True}
+    __pydantic_config__ = DOCUMENTED
 
     group: GroupRef
     """The group."""
@@ -64,7 +65,7 @@ class GroupInCommon:
 class TiesPage:
     """Everything between two persons that the slice keeps, with every citation."""
 
-    __pydantic_config__ = {"use_attribute_docstrings": True}
+    __pydantic_config__ = DOCUMENTED
 
     a: PersonRef
     """The first person (as in the address)."""
@@ -90,7 +91,7 @@ class TiesPage:
 class RelationPage:
     """One relation with all its attestations, whatever the slice."""
 
-    __pydantic_config__ = {"use_attribute_docstrings": True}
+    __pydantic_config__ = DOCUMENTED
 
     relation: RelationEvidence
     """The relation, its ends and roles, and its attestations (not deleted) in date order."""

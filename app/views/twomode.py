@@ -13,6 +13,7 @@ from fastapi import APIRouter, Request
 from fastapi.responses import HTMLResponse, Response
 from sqlalchemy.orm import Session
 
+from app.documented import DOCUMENTED
 from app.network.bipartite_drawing import TwoModeDrawing, two_mode_drawing
 from app.network.slice import Slice, resolve_slice
 from app.network.twomode import (
@@ -56,7 +57,7 @@ WEIGHTING_WORDS = {
 class PersonDegree:
     """One person of the two-mode graph."""
 
-    __pydantic_config__ = {"use_attribute_docstrings": True}
+    __pydantic_config__ = DOCUMENTED
 
     person: PersonRef
     """The person."""
@@ -70,7 +71,7 @@ class PersonDegree:
 class GroupDegree:
     """One group of the two-mode graph."""
 
-    __pydantic_config__ = {"use_attribute_docstrings": True}
+    __pydantic_config__ = DOCUMENTED
 
     group: GroupRef
     """The group."""
@@ -84,7 +85,7 @@ class GroupDegree:
 class GroupPair:
     """Two groups tied in the group-to-group projection."""
 
-    __pydantic_config__ = {"use_attribute_docstrings": True}
+    __pydantic_config__ = DOCUMENTED
 
     a: GroupRef
     """The first group (by name)."""
@@ -102,7 +103,7 @@ class GroupPair:
 class PersonPair:
     """Two persons tied in the person-to-person (co-membership) projection."""
 
-    __pydantic_config__ = {"use_attribute_docstrings": True}
+    __pydantic_config__ = DOCUMENTED
 
     a: PersonRef
     """The first person (by name)."""
@@ -120,7 +121,7 @@ class PersonPair:
 class TablePage:
     """Which page of a long table is shown."""
 
-    __pydantic_config__ = {"use_attribute_docstrings": True}
+    __pydantic_config__ = DOCUMENTED
 
     parameter: str
     """The query parameter of its page number."""
@@ -140,7 +141,7 @@ class TablePage:
 class TwoModePage:
     """The two-mode network of a slice and its two projections."""
 
-    __pydantic_config__ = {"use_attribute_docstrings": True}
+    __pydantic_config__ = DOCUMENTED
 
     slice: Slice
     """The slice of the query string."""

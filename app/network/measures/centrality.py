@@ -524,6 +524,11 @@ def _betweenness(
                    engine=engine, text=text, sampling=sampling)
 
 
+SAMPLE_GROUPS = 20
+"""The sampled sources are taken in this many groups (one path search per group); the spread of
+the groups' shares gives the standard error. With at most this many sources, each is a group."""
+
+
 def _sampled_raw(
     H: nx.Graph, samples: int, seed: int, distance: str | None, engine: str
 ) -> tuple[dict[Hashable, float], dict[Hashable, float | None], list[Hashable]]:
@@ -532,32 +537,41 @@ def _sampled_raw(
     The sources are drawn as networkx draws them (``random.Random(seed).sample(nodes, k)``).
     A person's betweenness sums the shares of the n - 1 other persons as sources; a random
     sample of m of them (m = k, or k - 1 for a sampled person) estimates it without bias as
-    (n - 1)/m times their sum, with a standard error from the spread of the sampled shares
-    (sampling without replacement).
+    (n - 1)/m times their sum. The standard error comes from the spread of the shares of the
+    sources taken in ``SAMPLE_GROUPS`` groups (batch means: a group of b sources has b times
+    the variance of one source's share), with the correction for sampling without replacement;
+    with no more sources than groups, each source is a group and this is the plain spread of
+    the sampled shares.
     """
     n = len(H)
     pivots = random.Random(seed).sample(list(H), samples)
+    groups = [pivots[g::SAMPLE_GROUPS] for g in range(min(SAMPLE_GROUPS, samples))]
     if engine == "igraph":
-        total, squares = kernels.betweenness_by_source(H, pivots, distance=distance)
+        nodes, shares = kernels.betweenness_by_group(H, groups, distance=distance)
     else:
-        total, squares = dict.fromkeys(H, 0.0), dict.fromkeys(H, 0.0)
-        for source in pivots:
-            share = nx.betweenness_centrality_subset(H, [source], list(H), normalized=False, weight=distance)
-            for v, s in share.items():
-                total[v] += s
-                squares[v] += s * s
-    chosen = set(pivots)
+        nodes = list(H)
+        shares = np.array([[found[v] for v in nodes] for found in (
+            nx.betweenness_centrality_subset(H, group, nodes, normalized=False, weight=distance) for group in groups)])
+    # sizes[g, i]: the sources of group g other than node i itself (a source's own share is 0)
+    sizes = np.repeat(np.array([len(group) for group in groups], dtype=float)[:, None], len(nodes), axis=1)
+    position = {v: i for i, v in enumerate(nodes)}
+    for g, group in enumerate(groups):
+        sizes[g, [position[v] for v in group]] -= 1
+    m = sizes.sum(axis=0)
+    total = shares.sum(axis=0)
+    mean = total / m
+    used = sizes > 0
+    counted = used.sum(axis=0)
+    deviations = np.where(used, (shares - sizes * mean) ** 2 / np.where(used, sizes, 1), 0.0).sum(axis=0)
     raw: dict[Hashable, float] = {}
     errors: dict[Hashable, float | None] = {}
-    for v in H:
-        m = samples - (v in chosen)
-        raw[v] = (n - 1) / m * total[v]
-        if m < 2:
+    for i, v in enumerate(nodes):
+        raw[v] = float((n - 1) / m[i] * total[i])
+        if counted[i] < 2:
             errors[v] = None
             continue
-        mean = total[v] / m
-        variance = max(0.0, (squares[v] - m * mean * mean) / (m - 1))
-        errors[v] = (n - 1) * math.sqrt(variance / m * (1 - m / (n - 1)))
+        variance = max(0.0, deviations[i] / (counted[i] - 1))
+        errors[v] = (n - 1) * math.sqrt(variance / m[i] * (1 - m[i] / (n - 1)))
     return raw, errors, pivots
 
 
@@ -572,8 +586,8 @@ def _sampling(
     statement = (f"Estimated from the paths of {len(pivots)} of the {len(H)} persons, drawn at random with seed {seed} "
                  "(Brandes & Pich 2007, as networkx's betweenness_centrality(k, seed)): each person's sum over those "
                  "sources is scaled by (n − 1)/k (by (n − 1)/(k − 1) for a drawn person), an unbiased estimate. "
-                 "Each value carries its standard error, from the "
-                 f"spread of the sampled sources' shares; the largest is {largest:.3g}{share}. "
+                 "Each value carries its standard error, from the spread of the sampled sources' shares "
+                 f"(the sources taken in {min(SAMPLE_GROUPS, len(pivots))} groups); the largest is {largest:.3g}{share}. "
                  "More sources shrink it roughly as 1/√k.")
     return Sampling(samples=len(pivots), seed=seed, standard_errors=standard_errors, statement=statement)
 

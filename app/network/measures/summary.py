@@ -24,6 +24,7 @@ __all__ = [
     "ONE_COLLECTION_SHARE",
     "NetworkSummary",
     "collection_warning",
+    "concentration_note",
     "small_slice_warning",
     "summarize",
 ]
@@ -88,12 +89,14 @@ class NetworkSummary:
 
 def summarize(
     G: nx.Graph | ArcGraph, *, node_set: str | None = None, collection_counts: Mapping[str, int] | None = None,
-    exact_paths: bool | None = None,
+    repository_counts: Mapping[str, int] | None = None, attestations: int | None = None, exact_paths: bool | None = None,
 ) -> NetworkSummary:
     """Return the summary of a slice's graph, with warnings.
 
-    ``collection_counts`` gives the number of attestations per collection in the slice (by
-    name); when one collection holds more than half of them, a warning says so. Path lengths
+    ``collection_counts`` and ``repository_counts`` give the number of attestations per
+    collection and per repository in the slice (by name), ``attestations`` all of them (printed
+    sources too); when one repository or one collection supplies more than half of them, a
+    warning says so (``collection_warning``). Path lengths
     are exact up to ``EXACT_PATHS_UP_TO`` persons in the largest component and estimated from
     ``PATH_SOURCES`` sampled sources above, unless ``exact_paths`` says otherwise.
 
@@ -131,7 +134,8 @@ def summarize(
         diameter, average = (kernels.path_lengths(component) if exact
                              else kernels.sampled_path_lengths(component, sources=PATH_SOURCES, seed=0))
     transitivity, clustering = kernels.transitivity(undirected)
-    warnings = [w for w in (small_slice_warning(n, ties), collection_warning(collection_counts or {})) if w]
+    concentrated = collection_warning(collection_counts or {}, repositories=repository_counts, total=attestations)
+    warnings = [w for w in (small_slice_warning(n, ties), concentrated) if w]
     path_part = (f"Diameter and average path length are those of the largest component ({largest} of {n} persons"
                  + (", the first of several of that size" if len(parts) > 1 and parts[1] == largest else "")
                  + "), counted in ties.") if largest else ""
@@ -177,27 +181,74 @@ def small_slice_warning(persons: int, ties: int) -> str | None:
     return f"Only {persons_text} and {ties} {'tie' if ties == 1 else 'ties'}: measures on so few ties say little."
 
 
-def collection_warning(counts: Mapping[str, int], share: float = ONE_COLLECTION_SHARE) -> str | None:
-    """Return a warning when one collection holds more than ``share`` of the attestations, else None.
+def collection_warning(
+    counts: Mapping[str, int], *, repositories: Mapping[str, int] | None = None, total: int | None = None,
+    share: float = ONE_COLLECTION_SHARE,
+) -> str | None:
+    """Return a warning when one repository or one collection supplies more than ``share`` of the attestations.
 
-    ``counts`` maps each collection (its name) to its number of attestations in the slice.
+    ``counts`` maps each collection (its name) to its attestations in the slice, ``repositories``
+    each repository (its name) to its attestations, and ``total`` counts every attestation of the
+    slice, printed sources included (the sum of ``counts`` when not given). The threshold, more
+    than half, is common practice, not a published rule; the warning states it.
 
     Examples
     --------
     >>> print(collection_warning({"Vell family papers": 70, "Town register": 30}))  # doctest: +NORMALIZE_WHITESPACE
-    70% of the attestations (70 of 100) come from one collection, Vell family papers: the network may
-    show what that collection kept rather than all that happened.
+    Most of the attestations come from one source of evidence: 70% (70 of 100) come from one collection, Vell
+    family papers. The network may show what that archive kept rather than all that happened. (A warning is
+    given when one repository or one collection supplies more than 50% of the attestations: common practice,
+    not a published rule.)
+    >>> print(collection_warning({"A: letters": 30, "A: accounts": 30, "B: registers": 40},
+    ...                          repositories={"A": 60, "B": 40}))  # doctest: +NORMALIZE_WHITESPACE
+    Most of the attestations come from one source of evidence: 60% (60 of 100) come from one repository, A.
+    The network may show what that archive kept rather than all that happened. (A warning is given when one
+    repository or one collection supplies more than 50% of the attestations: common practice, not a published rule.)
     >>> collection_warning({"Vell family papers": 50, "Town register": 50}) is None
     True
     """
-    total = sum(counts.values())
+    total = sum(counts.values()) if total is None else total
     if not total:
         return None
-    name, top = max(counts.items(), key=lambda item: (item[1], item[0]))
-    if top / total <= share:
+    found = []
+    for what, by_name in (("repository", repositories or {}), ("collection", counts)):
+        if not by_name:
+            continue
+        name, top = max(by_name.items(), key=lambda item: (item[1], item[0]))
+        if top / total > share:
+            found.append(f"{top / total:.0%} ({top:,} of {total:,}) come from one {what}, {name}")
+    if not found:
         return None
-    return (f"{top / total:.0%} of the attestations ({top} of {total}) come from one collection, {name}: "
-            "the network may show what that collection kept rather than all that happened.")
+    return (f"Most of the attestations come from one source of evidence: {'; '.join(found)}. The network may show "
+            f"what that archive kept rather than all that happened. ({_THRESHOLD.format(share=share)})")
+
+
+def concentration_note(
+    counts: Mapping[str, int], *, repositories: Mapping[str, int], total: int, share: float = ONE_COLLECTION_SHARE,
+) -> str | None:
+    """Return where most evidence comes from in plain words: the largest repository and collection and their shares.
+
+    Examples
+    --------
+    >>> print(concentration_note({"A: letters": 30, "B: registers": 40}, repositories={"A": 30, "B": 40}, total=80))
+    ... # doctest: +NORMALIZE_WHITESPACE
+    The largest repository, B, supplies 50% of the attestations (40 of 80); the largest collection, B: registers,
+    50%; 10 come from printed sources. (A warning is given when one repository or one collection supplies more
+    than 50% of the attestations: common practice, not a published rule.)
+    """
+    if not total or not counts:
+        return None
+    repository, in_repository = max(repositories.items(), key=lambda item: (item[1], item[0]))
+    collection, in_collection = max(counts.items(), key=lambda item: (item[1], item[0]))
+    printed = total - sum(counts.values())
+    printed_part = f"; {printed:,} come from printed sources" if printed else ""
+    return (f"The largest repository, {repository}, supplies {in_repository / total:.0%} of the attestations "
+            f"({in_repository:,} of {total:,}); the largest collection, {collection}, {in_collection / total:.0%}"
+            f"{printed_part}. ({_THRESHOLD.format(share=share)})")
+
+
+_THRESHOLD = ("A warning is given when one repository or one collection supplies more than {share:.0%} of the "
+              "attestations: common practice, not a published rule.")
 
 
 def _reciprocity(H: ArcGraph) -> float:

@@ -520,7 +520,8 @@ def test_neighbour_sums_equal_the_sums_of_each_relation(client: TestClient, quer
                                    "from=1705&to=1712", "unidentified=drop", "kind=letter", "keep_collection=col-n1",
                                    "omit_repository=rep-south", "evidence=original"])
 def test_neighbours_are_the_persons_of_the_neighbour_sums(client: TestClient, query: str):
-    """``neighbours`` (who only, from the attestations' index) finds exactly the persons ``neighbour_totals`` sums for."""
+    """``neighbours`` (who only, from the attestations' index) finds exactly the persons ``neighbour_totals`` sums for,
+    less the ``known`` ones."""
     from app.network.slice import neighbour_totals, neighbours
 
     database = client.app.state.database
@@ -530,6 +531,8 @@ def test_neighbours_are_the_persons_of_the_neighbour_sums(client: TestClient, qu
         for anchors in [*([p] for p in everyone), everyone[:3], everyone]:
             expected = {row.person for row in neighbour_totals(session, resolved, persons=anchors)}
             assert neighbours(session, resolved, persons=anchors) == expected, (query, anchors)
+            known = set(everyone[::3]) | set(anchors[:1])  # found already: left out, their relations not read
+            assert neighbours(session, resolved, persons=anchors, known=known) == expected - known, (query, anchors)
 
 
 def test_a_full_first_ring_counts_the_persons_two_steps_away_as_networkx_does(tmp_path):

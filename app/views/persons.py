@@ -3,7 +3,7 @@
 from __future__ import annotations
 
 from dataclasses import dataclass, field
-from typing import Any
+from typing import Any, ClassVar
 
 from fastapi import APIRouter, HTTPException, Request
 from fastapi.responses import HTMLResponse, RedirectResponse, Response
@@ -68,6 +68,10 @@ class PersonPage:
     """True when the slice is not the default one (each relation then says how much of it the slice keeps)."""
     ego: Any | None = None
     """The ego network panel drawn around the person (filled in by the ego view; None when not drawn)."""
+    tie_list_limit: ClassVar[int] = 100
+    """Ties drawn above which the page lists only the strongest of each kind (the ego page lists every one)."""
+    tie_kind_limit: ClassVar[int] = 20
+    """Ties of each kind listed then: those with the most documents, then attestations."""
     relation_limit: int | None = RELATION_LIMIT
     """How many relations of each kind are listed at most (those with most attestations); None: all. The JSON lists all."""
     same_as: list[LinkedPerson] = field(default_factory=list)

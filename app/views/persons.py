@@ -48,7 +48,7 @@ class PersonsPage:
     """The sort orders offered."""
 
 
-RELATION_LIMIT = 200
+RELATION_LIMIT = 50
 """Relations of one kind listed on a person's page before "show all": a hub has thousands."""
 
 
@@ -156,7 +156,7 @@ _PERSON = (
     "attestations never count. The slice parameters (`kind`, `from`, `to`, `certainty`, ...) are kept "
     "in links to the ties pages, and each relation then says how many attestations the slice keeps. "
     "The ego network of the slice (radius 1) comes with it, as on `/persons/{key}/ego`. The page lists "
-    "at most 200 relations of each kind (those with the most attestations; `relations=all` lists every one); "
+    "at most 50 relations of each kind (those with the most attestations; `relations=all` lists every one); "
     "the JSON always lists every one. "
     "An old key of a merged person redirects (308) to the current one; an unknown key is a 404."
 )

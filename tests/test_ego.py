@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import dataclasses
+from collections import defaultdict
 from pathlib import Path
 from urllib.parse import parse_qsl, urlsplit
 
@@ -416,6 +417,31 @@ def test_page_shows_the_slice_line_the_form_and_the_panel(client: TestClient):
     assert same_link(radius_two, f"/persons/{key('E')}/ego", [("certainty", "certain"), ("radius", "2")])
 
 
+def test_person_page_lists_the_strongest_ties_of_each_kind_when_many_are_drawn(client: TestClient, monkeypatch):
+    """Above the limit the person page lists the ties drawn by kind, the strongest of each; the ego page lists all."""
+    from app.views.persons import PersonPage
+
+    edges = ego(client)["edges"]
+    monkeypatch.setattr(PersonPage, "tie_list_limit", len(edges) - 1)  # the limit of a hub's page, on a small network
+    monkeypatch.setattr(PersonPage, "tie_kind_limit", 2)
+    soup = BeautifulSoup(client.get(f"/persons/{key('E')}").text, "html.parser")
+    tables = soup.select("details.ego-ties table.ego-tie-table")
+    by_kind: dict[str, list[dict]] = defaultdict(list)
+    for edge in edges:
+        by_kind[edge["kind"]].append(edge)
+    assert [t["data-kind"] for t in tables] == sorted(by_kind)
+    for table in tables:
+        drawn = by_kind[table["data-kind"]]
+        listed = [(r["data-source"], r["data-target"]) for r in table.select("tbody tr")]
+        strongest = sorted(drawn, key=lambda e: (e["documents"], e["attestations"]), reverse=True)[:2]  # stable: by pair
+        assert listed == [(e["source"], e["target"]) for e in strongest]
+        assert f"{len(drawn)} tie" in table.caption.get_text()
+    assert len(by_kind["letter"]) > 2 and "the 2 with the most documents" in soup.select_one('table[data-kind="letter"] caption').text
+    assert same_link(soup.select_one(".ties-cut a")["href"], f"/persons/{key('E')}/ego", [])
+    every = BeautifulSoup(client.get(f"/persons/{key('E')}/ego").text, "html.parser")
+    assert len(every.select(".ego-tie-table tbody tr")) == len(edges) and every.select_one(".ties-cut") is None
+
+
 def test_htmx_request_gets_only_the_panel(client: TestClient):
     response = client.get(f"/persons/{key('E')}/ego", headers={"HX-Request": "true"})
     soup = BeautifulSoup(response.text, "html.parser")
@@ -520,7 +546,8 @@ def test_neighbour_sums_equal_the_sums_of_each_relation(client: TestClient, quer
                                    "from=1705&to=1712", "unidentified=drop", "kind=letter", "keep_collection=col-n1",
                                    "omit_repository=rep-south", "evidence=original"])
 def test_neighbours_are_the_persons_of_the_neighbour_sums(client: TestClient, query: str):
-    """``neighbours`` (who only, from the attestations' index) finds exactly the persons ``neighbour_totals`` sums for."""
+    """``neighbours`` (who only, from the attestations' index) finds exactly the persons ``neighbour_totals`` sums for,
+    less the ``known`` ones."""
     from app.network.slice import neighbour_totals, neighbours
 
     database = client.app.state.database
@@ -530,6 +557,8 @@ def test_neighbours_are_the_persons_of_the_neighbour_sums(client: TestClient, qu
         for anchors in [*([p] for p in everyone), everyone[:3], everyone]:
             expected = {row.person for row in neighbour_totals(session, resolved, persons=anchors)}
             assert neighbours(session, resolved, persons=anchors) == expected, (query, anchors)
+            known = set(everyone[::3]) | set(anchors[:1])  # found already: left out, their relations not read
+            assert neighbours(session, resolved, persons=anchors, known=known) == expected - known, (query, anchors)
 
 
 def test_a_full_first_ring_counts_the_persons_two_steps_away_as_networkx_does(tmp_path):

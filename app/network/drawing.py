@@ -222,31 +222,36 @@ def ego_drawing(network: EgoNetwork, kinds: list[KindLabel], *, weight: str = "d
     for edge in network.edges:
         pairs[(edge.source, edge.target) if edge.source <= edge.target else (edge.target, edge.source)].append(edge)
     order = {key: i for i, key in enumerate(styles)}
-    widths: dict[float, float] = {}  # a hub's thousands of ties have a few dozen weights
+    widths: dict[tuple[float, bool], float] = {}  # a hub's thousands of ties have a few dozen weights
     crowded = len(network.nodes) > CROWDED
     centre = places[network.ego]
+    clearance = sizes[network.ego] + EGO_CLEARANCE
     for (a, b), group in sorted(pairs.items()):
         if len(group) > 1:
             group.sort(key=lambda e: (e.co_membership, order.get(e.kind, 0), e.source))
         middle = (len(group) - 1) / 2
         far = network.ego not in (a, b)
+        place_a, place_b, size_a, size_b = places[a], places[b], sizes[a], sizes[b]
         # a tie between two alters goes round the ego's mark and label rather than across its own ties
-        detour = _detour(places[a], places[b], centre, sizes[network.ego] + EGO_CLEARANCE, len(group)) if far and a != b else 0.0
+        detour = _detour(place_a, place_b, centre, clearance, len(group)) if far and a != b else 0.0
         for i, edge in enumerate(group):
             style = CO_MEMBERSHIP_STYLE if edge.co_membership else styles[edge.kind]
             if a == b:
-                path = _loop_path(places[a], sizes[a], i)
+                path = _loop_path(place_a, size_a, i)
             else:
                 bend = (i - middle) * PARALLEL_GAP + detour
-                path = _tie_path(places[edge.source], places[edge.target], sizes[edge.source], sizes[edge.target],
-                                 bend if edge.source == a else -bend, arrow=style.directed)  # fmt: skip
-            width = widths.get(edge.weight)
+                if edge.source == a:
+                    path = _tie_path(place_a, place_b, size_a, size_b, bend, style.directed)
+                else:
+                    path = _tie_path(place_b, place_a, size_b, size_a, -bend, style.directed)
+            thin = far and crowded
+            width = widths.get((edge.weight, thin))
             if width is None:
-                width = widths[edge.weight] = _width(edge.weight, weight)
+                width = _width(edge.weight, weight)
+                width = widths[(edge.weight, thin)] = round(width * FAR_WIDTH, 2) if thin else width
             edges.append(DrawnEdge(
-                source=edge.source, target=edge.target, kind=edge.kind, path=path, colour=style.colour, dash=style.dash,
-                width=round(width * FAR_WIDTH, 2) if far and crowded else width, marker=style.marker if edge.directed else "",
-                title=_edge_title(edge, names), co_membership=edge.co_membership, far=far,
+                edge.source, edge.target, edge.kind, path, style.colour, style.dash, width,
+                style.marker if edge.directed else "", _edge_title(edge, names), edge.co_membership, far,
             ))  # fmt: skip
     present = {edge.kind for edge in network.edges if not edge.co_membership}
     legend = [s for k, s in styles.items() if k in present]
@@ -325,7 +330,7 @@ def _edge_title(edge: EgoEdge, names: dict[str, str]) -> str:
             f"{edge.attestations} attestation{'s' if edge.attestations != 1 else ''}")  # fmt: skip
 
 
-def _tie_path(p: Placement, q: Placement, rp: float, rq: float, bend: float, *, arrow: bool) -> str:
+def _tie_path(p: Placement, q: Placement, rp: float, rq: float, bend: float, arrow: bool) -> str:
     """Return a line (or, with ``bend``, a gentle curve) from the edge of one mark to the other's."""
     dx, dy = q.x - p.x, q.y - p.y
     length = math.hypot(dx, dy) or 1.0

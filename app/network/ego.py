@@ -151,11 +151,11 @@ def ego_network(
                 strength[row.person] = (w, d, a) if earlier is None else (earlier[0] + w, earlier[1] + d, earlier[2] + a)
         return strength
 
-    def tied_to(persons: Iterable[int]) -> set[int]:
-        """Return the persons tied to ``persons`` in the slice, without the strength of the ties."""
+    def tied_to(persons: Iterable[int], known: set[int]) -> set[int]:
+        """Return the persons tied to ``persons`` in the slice but not ``known``, without the strength of the ties."""
         persons = sorted(persons)
         return {person for start in range(0, len(persons), 200)
-                for person in neighbours(session, resolved, persons=persons[start : start + 200])}  # fmt: skip
+                for person in neighbours(session, resolved, persons=persons[start : start + 200], known=known)}  # fmt: skip
 
     # Alters are chosen on sums made by the database; evidence rows are read only for the drawn.
     first = totals([ego_id])
@@ -166,7 +166,7 @@ def ego_network(
     if radius == 2:
         room = max(cap - len(kept_first), 0)
         if room == 0 and direction != "reciprocal":  # none can be drawn: who they are is enough, not how strong
-            found_second = tied_to(kept_first) - found_first - {ego_id}
+            found_second = tied_to(kept_first, found_first | {ego_id})  # the ties to those already found are not read
         else:
             second = totals(kept_first)
             found_second = set(second) - found_first - {ego_id}

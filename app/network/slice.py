@@ -492,19 +492,32 @@ def neighbour_totals(session: Session, resolved: ResolvedSlice, *, persons: Iter
     return [NeighbourTotal(*row) for row in session.connection().execute(query).all()]
 
 
-def neighbours(session: Session, resolved: ResolvedSlice, *, persons: Iterable[int]) -> set[int]:
+KNOWN_IN_SQL = 10_000
+"""Known persons that ``neighbours`` leaves out in SQL (twice bound, under SQLite's limit of 32,766 parameters); beyond, after."""
+
+
+def neighbours(
+    session: Session, resolved: ResolvedSlice, *, persons: Iterable[int], known: Iterable[int] = ()
+) -> set[int]:
     """Return the persons tied to one of ``persons`` (either way) in the slice, as ``neighbour_totals`` finds them.
 
     Only who they are, not how strongly tied: the attestations are read from their index, neither
     their sources nor a count per relation (unless the slice asks for ties attested in several
     collections), so the persons two steps from a hub are found at a fraction of the cost.
+    ``known`` persons (found already, such as the ego's alters) are left out, and so are the
+    attestations of the relations to them: they are not read at all.
     """
-    ids = sorted(set(persons))
+    ids, skip = sorted(set(persons)), sorted(set(known))
     if resolved.slice.min_collections > 1:  # counted per relation
-        return {row.person for row in neighbour_totals(session, resolved, persons=ids)}
+        return {row.person for row in neighbour_totals(session, resolved, persons=ids)} - set(skip)
     other = case((Relation.person_a_id.in_(ids), Relation.person_b_id), else_=Relation.person_a_id)
-    query = evidence_query(resolved, [other], ids, False, sources=False).distinct()
-    return set(session.connection().execute(query).scalars())
+    if not skip or len(skip) > KNOWN_IN_SQL:
+        query = evidence_query(resolved, [other], ids, False, sources=False)
+    else:  # the relations are chosen from the indexes on their two ends before any attestation is looked up
+        by_a = select(Relation.id).where(Relation.person_a_id.in_(ids), Relation.person_b_id.not_in(skip))
+        by_b = select(Relation.id).where(Relation.person_b_id.in_(ids), Relation.person_a_id.not_in(skip))
+        query = evidence_query(resolved, [other], None, False, sources=False).where(Relation.id.in_(by_a.union_all(by_b)))
+    return set(session.connection().execute(query.distinct()).scalars().all()) - set(skip)
 
 
 class SliceTotal(NamedTuple):

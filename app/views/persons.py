@@ -3,7 +3,7 @@
 from __future__ import annotations
 
 from dataclasses import dataclass, field
-from typing import Any
+from typing import Any, ClassVar
 
 from fastapi import APIRouter, HTTPException, Request
 from fastapi.responses import HTMLResponse, RedirectResponse, Response
@@ -49,7 +49,7 @@ class PersonsPage:
     """The sort orders offered."""
 
 
-RELATION_LIMIT = 200
+RELATION_LIMIT = 50
 """Relations of one kind listed on a person's page before "show all": a hub has thousands."""
 
 
@@ -69,6 +69,10 @@ class PersonPage:
     """True when the slice is not the default one (each relation then says how much of it the slice keeps)."""
     ego: Any | None = None
     """The ego network panel drawn around the person (filled in by the ego view; None when not drawn)."""
+    tie_list_limit: ClassVar[int] = 100
+    """Ties drawn above which the page lists only the strongest of each kind (the ego page lists every one)."""
+    tie_kind_limit: ClassVar[int] = 20
+    """Ties of each kind listed then: those with the most documents, then attestations."""
     relation_limit: int | None = RELATION_LIMIT
     """How many relations of each kind are listed at most (those with most attestations); None: all. The JSON lists all."""
     same_as: list[LinkedPerson] = field(default_factory=list)
@@ -153,7 +157,7 @@ _PERSON = (
     "attestations never count. The slice parameters (`kind`, `from`, `to`, `certainty`, ...) are kept "
     "in links to the ties pages, and each relation then says how many attestations the slice keeps. "
     "The ego network of the slice (radius 1) comes with it, as on `/persons/{key}/ego`. The page lists "
-    "at most 200 relations of each kind (those with the most attestations; `relations=all` lists every one); "
+    "at most 50 relations of each kind (those with the most attestations; `relations=all` lists every one); "
     "the JSON always lists every one. "
     "An old key of a merged person redirects (308) to the current one; an unknown key is a 404."
 )

@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import re
 from pathlib import Path
 
 import pytest
@@ -33,9 +34,12 @@ def test_ego_page_in_a_browser(browser: Browser, db_path: Path, database: Databa
 
         # A click on a line shows the documents of that tie beside the drawing, without leaving the page.
         page.evaluate("() => { window.stillTheSamePage = true; }")
-        page.locator(f'a.ego-edge[data-source="{key("A")}"][data-target="{key("B")}"]').click()
+        chosen = page.locator(f'a.ego-edge[data-source="{key("A")}"][data-target="{key("B")}"]')
+        chosen.click()
         panel = page.locator("#tie-panel")
         expect(panel.locator("#ties")).to_be_visible()
+        expect(chosen).to_have_class(re.compile(r"\bis-chosen\b"))  # the clicked tie stays marked
+        expect(page.locator("a.ego-edge.is-chosen")).to_have_count(1)
         expect(panel).to_contain_text("Anna Alting")
         expect(panel).to_contain_text("Bruno Brede")
         assert page.evaluate("() => window.stillTheSamePage") is True

@@ -34,7 +34,8 @@ def attesta(*args: str):
     return result
 
 FILES = ["/export/graphml", "/export/nodes.csv", "/export/edges.csv", "/export/matrix.csv", "/export/sources.json",
-         "/export/workbook.zip", "/export/ego.svg?person=p-anna", "/export/ego.svg?person=p-anna&radius=2"]
+         "/export/workbook.zip", "/export/ego.svg?person=p-anna", "/export/ego.svg?person=p-anna&radius=2",
+         "/export/two-mode.svg"]
 
 
 @pytest.fixture(scope="module")
@@ -92,7 +93,7 @@ def test_the_files_without_restricted_persons_keep_everyone_else_and_drop_their_
     assert "m-z" not in {row["key"] for row in memberships}
 
 
-@pytest.mark.parametrize("path", FILES[:6])
+@pytest.mark.parametrize("path", FILES[:6] + ["/export/two-mode.svg"])
 def test_an_admin_who_asks_gets_the_restricted_persons(world, path):
     _, clients = world
     joiner = "&" if "?" in path else "?"

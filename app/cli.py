@@ -298,6 +298,10 @@ def export_tables_command(database: str | None, slice_query: str, include_restri
     with db.read() as session:
         export = slice_export(session, _slice(slice_query), leave_out=leave_out)
         items = csl_items(session, keys={k for e in export.edges for k in e.source_keys})
+    if leave_out is not None:  # a restricted person's name in a title or as an author, as /export/sources.json does
+        from app.views.redaction import Redactor
+
+        items = Redactor(leave_out).redact(items)
     (folder / "persons.csv").write_text(nodes_csv(export), encoding="utf-8")
     (folder / "ties.csv").write_text(edges_csv(export), encoding="utf-8")
     (folder / "matrix.csv").write_text(adjacency_csv(export), encoding="utf-8")

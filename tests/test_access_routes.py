@@ -65,6 +65,7 @@ for method, template, needed, path in [
     ("GET", "/export/matrix.csv", READ, "/export/matrix.csv"), ("GET", "/export/graphml", READ, "/export/graphml"),
     ("GET", "/export/sources.json", READ, "/export/sources.json"), ("GET", "/export/workbook.zip", READ, "/export/workbook.zip"),
     ("GET", "/export/ego.svg", READ, "/export/ego.svg?person=p-jost"), ("GET", "/export/ego.png", READ, "/export/ego.png?person=p-jost"),
+    ("GET", "/export/two-mode.svg", READ, "/export/two-mode.svg"), ("GET", "/export/two-mode.png", READ, "/export/two-mode.png"),
     ("POST", "/export/snapshot", READ, "/export/snapshot"),
     ("POST", "/audit/{entry_id}/redact", ADMIN, "/audit/1/redact"),
 ]:

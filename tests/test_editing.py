@@ -316,6 +316,30 @@ def test_a_season_is_shown_in_words_beside_the_code(client):
     assert [w.get_text() for w in index.select("td.life .date-words")] == ["(summer 1662)", "(winter 1701)"]
 
 
+
+def test_seasons_are_in_words_on_the_received_date_and_the_group_members_dates(tmp_path):
+    # EDTF 2019, Level 1 "Seasons": 24 is winter; Level 2 "Sub-year groupings": 28 is winter (northern hemisphere)
+    from app.config import Settings, database_url
+    from app.db import Database, upgrade
+    from app.exchange.workbook import import_workbook
+    from app.main import create_app
+    from tests.workbooks import small_world, write_workbook
+
+    world = small_world()
+    world["sources.csv"][0].update(date="1703-21", received="1703-24")
+    for row in world["memberships.csv"]:
+        row["date"] = "1702-28"
+    db = Database(database_url(tmp_path / "seasons.db"))
+    upgrade(db)
+    import_workbook(db, write_workbook(tmp_path / "wb", world), size_limit=10**9)
+    db.dispose()
+    with TestClient(create_app(Settings(database_url=database_url(tmp_path / "seasons.db")))) as seasons:
+        source = BeautifulSoup(seasons.get("/sources/s-1").text, "html.parser")
+        assert source.select_one('[data-field="received"] .date-words').get_text() == "(winter 1703)"
+        group = BeautifulSoup(seasons.get("/groups/g-society").text, "html.parser")
+        dates = group.select("li.attestation-date")
+        assert dates and all(d.select_one(".date-words").get_text() == "(winter 1702 (northern hemisphere))" for d in dates)
+
 # --- audit trail -----------------------------------------------------------------------------
 
 

@@ -7,6 +7,7 @@ death; SECRETS are every trace of them (names, spellings, keys, identifiers, fac
 from __future__ import annotations
 
 import csv
+import json
 import io
 import zipfile
 
@@ -33,7 +34,8 @@ def attesta(*args: str):
     return result
 
 FILES = ["/export/graphml", "/export/nodes.csv", "/export/edges.csv", "/export/matrix.csv", "/export/sources.json",
-         "/export/workbook.zip", "/export/ego.svg?person=p-anna", "/export/ego.svg?person=p-anna&radius=2"]
+         "/export/workbook.zip", "/export/ego.svg?person=p-anna", "/export/ego.svg?person=p-anna&radius=2",
+         "/export/two-mode.svg"]
 
 
 @pytest.fixture(scope="module")
@@ -91,7 +93,7 @@ def test_the_files_without_restricted_persons_keep_everyone_else_and_drop_their_
     assert "m-z" not in {row["key"] for row in memberships}
 
 
-@pytest.mark.parametrize("path", FILES[:6])
+@pytest.mark.parametrize("path", FILES[:6] + ["/export/two-mode.svg"])
 def test_an_admin_who_asks_gets_the_restricted_persons(world, path):
     _, clients = world
     joiner = "&" if "?" in path else "?"
@@ -201,3 +203,27 @@ def _read(target) -> str:
         archive = zipfile.ZipFile(target)
         return "\n".join(archive.read(name).decode("utf-8") for name in archive.namelist())
     return target.read_text(encoding="utf-8")
+
+
+def test_a_source_naming_a_restricted_person_is_cited_without_the_name_by_the_page_and_the_command(tmp_path):
+    from app.exchange.workbook import import_workbook
+    from tests.accounts_world import restricted_world
+    from tests.workbooks import write_workbook
+
+    world = restricted_world()
+    world["sources.csv"].append({"key": "s-z", "kind": "edition", "title": "Letters kept by Zorwald Quenneby",
+                                 "author": "Ysolde Marrack", "year": "2001"})
+    world["relations.csv"].append({"key": "r-s-z", "person": "p-anna", "other": "p-jost", "kind": "letter", "source": "s-z"})
+    path = tmp_path / "attesta.db"
+    database = Database(database_url(path))
+    upgrade(database)
+    import_workbook(database, write_workbook(tmp_path / "wb", world), size_limit=10**9)
+    database.dispose()
+    with TestClient(create_app(Settings(database_url=database_url(path)))) as local:
+        page = local.get("/export/sources.json").json()
+    result = attesta("export-tables", "--db", str(path), str(tmp_path / "tables"))
+    assert result.returncode == 0, result.stderr
+    command = json.loads((tmp_path / "tables" / "sources.json").read_text(encoding="utf-8"))
+    for items in (page, command):
+        cited = next(item for item in items if item["id"] == "s-z")  # the source stays, cited
+        assert leaks(json.dumps(items, ensure_ascii=False)) == [] and "restricted person" in cited["title"]

@@ -117,3 +117,121 @@ def test_the_export_page_shows_the_hash_and_the_button_posts_a_snapshot_with_csr
     assert snapshot.status_code == 200 and snapshot.headers["x-dataset-version"] == expected
     assert zipfile.ZipFile(io.BytesIO(snapshot.content)).read("snapshot/SHA256").decode().startswith(expected)
     db.dispose()
+
+
+# --- the dataset version kept between writes ------------------------------------------------
+
+
+def _every_kind_of_edit():
+    """(label, edit) pairs: each edit is one write of a form, a merge, a split, a link or an import."""
+    from sqlalchemy import select
+
+    from app.auth import Actor
+    from app.models import Group, Person, Source
+    from app.store import editing, merging
+
+    actor = Actor(name="editor", role="editor")
+
+    def version(session, model, key):  # noqa: ANN001 - the version the form was loaded at
+        return session.scalar(select(model.version).where(model.key == key))
+
+    def person(session):
+        editing.update_person(session=session, actor=actor, key="p-jost", version=version(session, Person, "p-jost"), name="Jost Brenner the younger",
+                              variants="J. Brenner", identifiers="local:JB1|viaf:123")
+
+    def source(session):
+        editing.update_source(session=session, actor=actor, key="s-ed", version=version(session, Source, "s-ed"), kind="edition",
+                              title="Letters of the Vell family, second edition", year="1890")
+
+    def new_letter(session):
+        editing.create_relation(session=session, actor=actor, person="p-council", other="p-jost", kind="letter",
+                                attestation=editing.AttestationInput(source="s-1", locus="fol. 9"))
+
+    def attestation(session):
+        editing.update_attestation(session=session, actor=actor, key="r-1", version=version(session, Attestation, "r-1"),
+                                   attestation=editing.AttestationInput(source="s-2", locus="fol. 2r\r\nverso"))
+
+    def deletion(session):
+        editing.delete_attestation(session=session, actor=actor, key="r-2", reason="a misreading")
+
+    def group(session):
+        editing.update_group(session=session, actor=actor, key="g-committee", version=version(session, Group, "g-committee"), name="Standing committee",
+                             parent="g-society")
+
+    def link(session):
+        merging.create_person_link(session=session, actor=actor, key="p-anna", other="p-widow", note="same hand?")
+
+    def split(session):
+        merging.split_person(session=session, actor=actor, key="p-anna", new_key="p-anna-2", new_name="Anna Vell the elder",
+                             attestations=["r-3"])
+
+    def merge(session):
+        merging.merge_persons(session=session, actor=actor, kept="p-jost", absorbed="p-council")
+
+    return [("person", person, {"persons.csv"}), ("source", source, {"sources.csv"}),
+            ("new letter", new_letter, {"relations.csv", "memberships.csv", "facts.csv"}),
+            ("attestation", attestation, {"relations.csv", "memberships.csv", "facts.csv"}),
+            ("deletion", deletion, {"relations.csv", "memberships.csv", "facts.csv"}),
+            ("group", group, {"groups.csv"}), ("link", link, set()),
+            ("split", split, {"persons.csv", "relations.csv", "memberships.csv", "facts.csv"}),
+            ("merge", merge, {"persons.csv", "relations.csv", "memberships.csv", "facts.csv"})]
+
+
+def test_the_kept_dataset_version_follows_every_kind_of_write_and_reads_only_the_files_it_may_change(tmp_path):
+    from app.exchange.snapshot import DatasetVersionKeeper, _workbook_files
+
+    db = fresh(tmp_path, "kept")
+    keeper = DatasetVersionKeeper()
+    with db.read() as session:
+        first = keeper.get(session)
+        assert first == dataset_version(session) and len(keeper.files_read) == 10  # every file the first time
+        assert keeper.get(session) == first and keeper.files_read == []  # the same data version: nothing read
+    seen = {first.sha256}
+    for label, edit, files in _every_kind_of_edit():
+        with db.write() as session:
+            edit(session)
+        with db.read() as session:
+            kept = keeper.get(session)
+            # the definition: SHA-256 of the canonical workbook files, as the snapshot hashes them
+            assert kept == dataset_version(session, _workbook_files(session)), label
+            assert set(keeper.files_read) == files, label
+        assert (kept.sha256 in seen) == (label == "link"), label  # a link is not in the workbook; the rest change it
+        seen.add(kept.sha256)
+    import_workbook(db, write_workbook(tmp_path / "more", {"persons.csv": [{"key": "p-new", "name": "Ide Quast"}]}),
+                    size_limit=LIMIT)
+    with db.read() as session:
+        assert keeper.get(session) == dataset_version(session, _workbook_files(session))
+        assert len(keeper.files_read) == 10  # an import may change any file
+    with db.write() as session:  # a write without an audit entry (a script on the database): every file again
+        session.execute(update(Attestation).where(Attestation.key == "r-3").values(locus="fol. 7"))
+        from app.store.audit import bump_data_version
+        bump_data_version(session=session)
+    with db.read() as session:
+        assert keeper.get(session) == dataset_version(session, _workbook_files(session))
+        assert len(keeper.files_read) == 10
+    db.dispose()
+
+
+def test_cells_with_line_breaks_quotes_and_carriage_returns_hash_as_the_files_hold_them(tmp_path):
+    """The kept version serialises cells without writing the files; the definition reads the files back.
+
+    Python's csv writer quotes a cell only for the delimiter, the quote character and the line
+    terminator's characters (csv module documentation, QUOTE_MINIMAL), so the workbook ends its
+    lines with "\r\n" (RFC 4180) and a lone carriage return is quoted and read back whole.
+    """
+    from app.exchange.snapshot import DatasetVersionKeeper, _workbook_files
+
+    db = fresh(tmp_path, "cr")
+    awkward = ["first line\rsecond line", "a \"quoted\", and\r\nbroken\nline", "\ufefftrailing space ", "tab\tand\x0bform"]
+    with db.write() as session:
+        for key, note in zip(["r-1", "r-2", "r-3"], awkward):
+            session.execute(update(Attestation).where(Attestation.key == key).values(note=note, quote=awkward[-1]))
+    with db.read() as session:
+        files = _workbook_files(session)
+        from_files = dataset_version(session, files)
+        assert dataset_version(session) == from_files == DatasetVersionKeeper().get(session)
+    import csv
+
+    notes = {row["key"]: row["note"] for row in csv.DictReader(io.StringIO(files["relations.csv"].decode("utf-8")))}
+    assert [notes["r-1"], notes["r-2"], notes["r-3"]] == awkward[:3]  # the files give every cell back
+    db.dispose()

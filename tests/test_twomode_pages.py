@@ -352,3 +352,56 @@ def test_persons_of_one_name_are_told_apart(tmp_path):
         links = {a.get_text(strip=True) for a in soup.select("#person-pairs a.pair-link")}
         assert "Jan Smit (1650–1700) and Jan Smit (1672–?)" in links
         assert "Kee Smit" in {a.get_text(strip=True) for a in soup.select("#person-degrees a")}
+
+
+NETWORK_VIEWS = ["/network", "/network/summary", "/network/centrality", "/network/components", "/network/cut-points",
+                 "/network/cliques", "/network/communities", "/network/two-mode"]
+
+
+@pytest.mark.parametrize("mode", ["relations", "co-membership", "both"])
+def test_every_network_view_offers_the_exports_of_its_slice(client: TestClient, mode: str):
+    from urllib.parse import parse_qsl, urlsplit
+
+    person = api(client)["person_degrees"][0]["person"]["key"]
+    answered: dict[str, int] = {}  # the views link the same files: each is fetched once
+    for view in [*NETWORK_VIEWS, f"/persons/{person}"]:
+        page = client.get(view, params={"mode": mode, "certainty": "probable"})
+        assert page.status_code == 200, (view, page.text[:300])
+        links = {a["data-export"]: a["href"] for a in BeautifulSoup(page.text, "lxml").select("section.exports a[data-export]")}
+        files = {"graphml", "nodes", "edges", "matrix", "sources", "page"}
+        expected = files | ({"ego-svg", "ego-png"} if view.startswith("/persons/") else set()) | (
+            {"incidence", "person-projection"} if mode != "relations" else set()) | (
+            {"two-mode-svg", "two-mode-png"} if view == "/network/two-mode" else set())  # the page's own drawing
+        assert set(links) == expected, view
+        for name, href in links.items():
+            query = dict(parse_qsl(urlsplit(href).query))
+            assert query["certainty"] == "probable", (view, name)  # the page's slice
+            # the files hold relations: under a co-membership mode, those of the same slice's relations;
+            # the drawings and the two-mode matrices keep the mode, as their pages show it
+            keeps_mode = name in ("ego-svg", "ego-png", "two-mode-svg", "two-mode-png", "incidence", "person-projection",
+                                  "page")
+            assert query.get("mode") == (mode if mode != "relations" and keeps_mode else None), (view, name, href)
+            if href not in answered:
+                answered[href] = client.get(href).status_code
+            assert answered[href] == 200, (view, name, href)
+    export = BeautifulSoup(client.get("/export", params={"mode": mode}).text, "lxml")
+    assert bool(export.select(".shared-groups-file")) == (mode != "relations")
+    assert client.get("/export/graphml", params={"mode": mode}).status_code == (200 if mode == "relations" else 400)
+
+
+def test_the_two_mode_drawing_downloads_with_a_caption_naming_slice_and_dataset_version(client: TestClient):
+    from lxml import etree
+
+    svg = client.get("/export/two-mode.svg", params={"certainty": "probable"})
+    assert svg.status_code == 200 and svg.headers["content-type"].startswith("image/svg+xml")
+    root = etree.fromstring(svg.content)  # a standalone SVG file (W3C SVG namespace)
+    assert root.tag == "{http://www.w3.org/2000/svg}svg" and float(root.get("width")) > 0
+    page = BeautifulSoup(client.get("/network/two-mode", params={"certainty": "probable"}).text, "lxml")
+    drawn = {a["data-key"] for a in page.select(".two-mode-svg a[data-key]")}
+    assert drawn and drawn == {a.get("data-key") for a in root.iter("{http://www.w3.org/2000/svg}a")}  # the page's drawing
+    caption = " ".join(t.text for t in root.iterfind(".//{*}g[@class='tm-caption']/{*}text"))
+    version = BeautifulSoup(client.get("/export").text, "lxml").select_one("code.dataset-hash").get_text()
+    assert f"dataset version {version[:16]}" in caption
+    assert page.select_one(".slice-line").get_text(" ", strip=True).removeprefix("Slice: ") in " ".join(caption.split())
+    png = client.get("/export/two-mode.png", params={"certainty": "probable"})
+    assert png.status_code == 200 and png.content.startswith(b"\x89PNG\r\n\x1a\n")  # the PNG signature (RFC 2083)

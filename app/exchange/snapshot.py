@@ -12,24 +12,24 @@ import csv
 import hashlib
 import io
 import json
-import tempfile
+import threading
 import zipfile
 from dataclasses import dataclass
 from datetime import UTC, datetime
 from importlib.metadata import PackageNotFoundError, version
-from pathlib import Path
 
 from sqlalchemy import func, select
 from sqlalchemy.orm import Session
 
-from app.exchange.workbook import FILES, export_workbook
+from app.exchange.workbook import FILES, export_workbook_files, export_workbook_rows
 from app.models import Attestation, Person, Relation, Source
 from app.network.slice import Slice
+from app.store.audit import ChangeNote, latest_entry_id, list_changes_after
 from app.store.measure_results import list_stored_results
 from app.store.privacy import RestrictedPersons
 from app.store.summary import get_data_version
 
-__all__ = ["DatasetVersion", "dataset_version", "snapshot_bytes"]
+__all__ = ["DatasetVersion", "DatasetVersionKeeper", "dataset_version", "files_touched", "snapshot_bytes"]
 
 _FIXED_TIME = (1980, 1, 1, 0, 0, 0)  # zip entries carry no clock time: same data, same members
 
@@ -49,9 +49,7 @@ class DatasetVersion:
 
 
 def _workbook_files(session: Session, *, leave_out: RestrictedPersons | None = None) -> dict[str, bytes]:
-    with tempfile.TemporaryDirectory(prefix="attesta-snapshot-") as folder:
-        export_workbook(session, folder, leave_out=leave_out)
-        return {name: (Path(folder) / name).read_bytes() for name in FILES if (Path(folder) / name).exists()}
+    return {name: data for name, data in export_workbook_files(session, leave_out=leave_out).items() if name in FILES}
 
 
 def _canonical(files: dict[str, bytes]) -> bytes:
@@ -62,18 +60,113 @@ def _canonical(files: dict[str, bytes]) -> bytes:
     return json.dumps(tables, sort_keys=True, separators=(",", ":"), ensure_ascii=False).encode("utf-8")
 
 
-def dataset_version(session: Session, files: dict[str, bytes] | None = None) -> DatasetVersion:
-    """Return the content hash of the dataset and its counts."""
-    files = files if files is not None else _workbook_files(session)
+def _fragment(name: str, rows: list[tuple]) -> str:
+    """Return the canonical JSON of one file's rows, as it stands inside :func:`_canonical`'s serialisation.
+
+    The workbook's CSV writer and reader give every cell back as it was (tested), so the rows are
+    serialised straight from the cells, without writing the file and reading it back.
+    """
+    cells = [row if None not in row else tuple("" if v is None else v for v in row) for row in rows]  # text or None
+    table = {"columns": list(FILES[name].columns), "rows": sorted(cells)}
+    return json.dumps(table, sort_keys=True, separators=(",", ":"), ensure_ascii=False)
+
+
+def _joined(fragments: dict[str, str]) -> bytes:
+    """The whole serialisation from the files' fragments: what json.dumps writes for the dict of them, sorted keys."""
+    parts = (json.dumps(name, ensure_ascii=False) + ":" + fragments[name] for name in sorted(fragments))
+    return ("{" + ",".join(parts) + "}").encode("utf-8")
+
+
+def _counted(session: Session, sha256: str) -> DatasetVersion:
     alive = Attestation.deleted_at.is_(None)
     return DatasetVersion(
-        sha256=hashlib.sha256(_canonical(files)).hexdigest(),
+        sha256=sha256,
         persons=session.scalar(select(func.count()).select_from(Person)) or 0,
         sources=session.scalar(select(func.count()).select_from(Source)) or 0,
         relations=session.scalar(select(func.count()).select_from(Relation)) or 0,
         attestations=session.scalar(select(func.count()).select_from(Attestation).where(alive)) or 0,
         data_version=get_data_version(session=session),
     )
+
+
+def dataset_version(session: Session, files: dict[str, bytes] | None = None) -> DatasetVersion:
+    """Return the content hash of the dataset (of ``files``, the workbook's, when given) and its counts."""
+    if files is not None:
+        return _counted(session, hashlib.sha256(_canonical(files)).hexdigest())
+    fragments = {name: _fragment(name, rows) for name, rows in export_workbook_rows(session).items()}
+    return _counted(session, hashlib.sha256(_joined(fragments)).hexdigest())
+
+
+PERSON_FILES = frozenset({"persons.csv", "relations.csv", "memberships.csv", "facts.csv"})
+EVIDENCE_FILES = frozenset({"relations.csv", "memberships.csv", "facts.csv"})
+_TOUCHED = {  # table of an audit entry -> the files it can change while the record keeps its key
+    "person": {"persons.csv"}, "source": {"sources.csv"}, "repository": {"repositories.csv"},
+    "collection": {"collections.csv"}, "group": {"groups.csv"}, "attestation": EVIDENCE_FILES,
+    "relation": {"relations.csv"}, "membership": {"memberships.csv"},
+}
+_OUTSIDE = frozenset({"person_link", "user", "audit_entry"})
+"""Tables the workbook does not hold: their entries (links, accounts, redactions) change no file."""
+_EDITS = frozenset({"create", "update", "delete", "restore", "merge", "split"})
+_NAMED_BY = {  # table -> the files that name its records by key (a changed key changes them)
+    "person": PERSON_FILES, "source": {"sources.csv"} | EVIDENCE_FILES, "group": {"groups.csv", "memberships.csv"},
+    "repository": {"repositories.csv", "collections.csv", "sources.csv"}, "collection": {"collections.csv", "sources.csv"},
+}
+
+
+def files_touched(changes: list[ChangeNote]) -> set[str] | None:
+    """Return the workbook files these writes may have changed (None: any of them, e.g. after an import).
+
+    An edit changes its record's own file; a merge or split, or a record whose key changed, also
+    changes the files naming it; an action or table not listed here counts as changing everything.
+    """
+    touched: set[str] = set()
+    for change in changes:
+        if change.table in _OUTSIDE:
+            continue
+        if change.table not in _TOUCHED or change.action not in _EDITS or (
+                change.action in ("merge", "split") and change.table != "person"):
+            return None
+        touched |= _TOUCHED[change.table]
+        if change.action in ("merge", "split") or (change.key_before is not None and change.key_before != change.key_after):
+            touched |= _NAMED_BY.get(change.table, set())
+    return touched
+
+
+class DatasetVersionKeeper:
+    """The dataset version kept between writes, brought up to date file by file.
+
+    It keeps each workbook file's canonical fragment and the newest audit entry it has seen; after
+    writes it reads the entries since then and serialises again only the files they may have
+    changed (:func:`files_touched`), so an edit of a person hashes the persons again, not the
+    200,000 letters. The hash is the one :func:`dataset_version` gives, by the same definition.
+    When the entries do not account for every step of the data version, everything is read again.
+    """
+
+    def __init__(self) -> None:
+        self._lock = threading.Lock()
+        self._fragments: dict[str, str] = {}
+        self._entry_id = 0
+        self._version: DatasetVersion | None = None
+        self.files_read: list[str] = []
+        """The files serialised at the last update (for tests and benchmarks)."""
+
+    def get(self, session: Session) -> DatasetVersion:
+        """Return the dataset version of the data ``session`` sees (one read transaction)."""
+        current = get_data_version(session=session)
+        with self._lock:
+            kept = self._version
+            if kept is not None and kept.data_version == current:
+                self.files_read = []
+                return kept
+            changes = list_changes_after(session=session, entry_id=self._entry_id) if kept is not None else []
+            files = None if kept is None or len(changes) != current - kept.data_version else files_touched(changes)
+            wanted = list(FILES) if files is None else sorted(files)
+            for name, rows in export_workbook_rows(session, files=wanted).items():
+                self._fragments[name] = _fragment(name, rows)
+            self.files_read = wanted
+            self._entry_id = changes[-1].entry_id if changes else latest_entry_id(session=session)
+            self._version = _counted(session, hashlib.sha256(_joined(self._fragments)).hexdigest())
+            return self._version
 
 
 def snapshot_bytes(session: Session, slice_: Slice, *, dataset_name: str,

@@ -21,8 +21,8 @@ from collections import Counter
 from dataclasses import dataclass, field
 from datetime import date, datetime, timezone
 from pathlib import Path, PurePosixPath
-from collections.abc import Callable, Iterator
-from typing import Any, NamedTuple
+from collections.abc import Callable, Iterable, Iterator
+from typing import Any, NamedTuple, TextIO
 
 from sqlalchemy import func, select, update
 from sqlalchemy.orm import Session, aliased
@@ -1300,11 +1300,38 @@ def export_workbook(session: Session, folder: str | Path, *, leave_out: Restrict
     tables = _export_rows(session, leave_out or None)
     for name, rows in tables.items():
         with open(folder / name, "w", encoding="utf-8", newline="") as handle:
-            writer = csv.writer(handle, lineterminator="\n")
-            writer.writerow(FILES[name].columns)
-            for row in rows:
-                writer.writerow(["" if row.get(c) is None else row[c] for c in FILES[name].columns])
+            _write_rows(handle, name, rows)
     return {name: len(rows) for name, rows in tables.items()}
+
+
+def export_workbook_files(session: Session, *, leave_out: RestrictedPersons | None = None) -> dict[str, bytes]:
+    """Return every workbook file of the dataset as ``{name: UTF-8 bytes}``, as :func:`export_workbook` writes them."""
+    return workbook_files_of(export_workbook_rows(session, leave_out=leave_out))
+
+
+def export_workbook_rows(session: Session, *, leave_out: RestrictedPersons | None = None,
+                         files: Iterable[str] | None = None) -> dict[str, list[tuple]]:
+    """Return the workbook files' rows (every file, or those named by ``files``) as tuples of cells in the
+    file's column order (None: an empty cell)."""
+    return _export_rows(session, leave_out or None, files)
+
+
+def workbook_files_of(tables: dict[str, list[tuple]]) -> dict[str, bytes]:
+    """Return the CSV files (UTF-8 bytes) of the rows :func:`export_workbook_rows` gives."""
+    files = {}
+    for name, rows in tables.items():
+        buffer = io.StringIO(newline="")
+        _write_rows(buffer, name, rows)
+        files[name] = buffer.getvalue().encode("utf-8")
+    return files
+
+
+def _write_rows(handle: TextIO, name: str, rows: list[tuple]) -> None:
+    # RFC 4180 line ends: with "\r\n" as the terminator the writer also quotes a cell holding a lone
+    # carriage return, which it would otherwise leave bare and unreadable.
+    writer = csv.writer(handle, lineterminator="\r\n")
+    writer.writerow(FILES[name].columns)
+    writer.writerows(rows)  # None is written as an empty cell
 
 
 def _yes(value: bool) -> str:
@@ -1315,81 +1342,140 @@ def _number(value: float | None) -> str | None:
     return None if value is None else repr(value)
 
 
-def _export_rows(s: Session, leave_out: RestrictedPersons | None = None) -> dict[str, list[dict[str, Any]]]:
-    out = _all_export_rows(s)
+_NAMING = {"persons.csv": ("key",), "relations.csv": ("person", "other"), "memberships.csv": ("person",),
+           "facts.csv": ("person",)}
+"""The columns that name a person by key, per file: a row naming a restricted person is left out."""
+
+
+def _export_rows(s: Session, leave_out: RestrictedPersons | None = None,
+                 files: Iterable[str] | None = None) -> dict[str, list[tuple]]:
+    """Return every file's rows as tuples of cells in the file's column order (None for an empty cell)."""
+    out = _all_export_rows(s, FILES.keys() if files is None else files)
     if leave_out is None:
         return out
     hidden = {key.lower() for key in leave_out.keys}
-    naming = {"persons.csv": ("key",), "relations.csv": ("person", "other"), "memberships.csv": ("person",),
-              "facts.csv": ("person",)}
-    return {name: [{column: (leave_out.hide_in(value) if isinstance(value, str) else value) for column, value in row.items()}
-                   for row in rows if not any((row.get(c) or "").lower() in hidden for c in naming.get(name, ()))]
-            for name, rows in out.items()}
+    hide = lambda value: leave_out.hide_in(value) if isinstance(value, str) else value  # noqa: E731
+    kept = {}
+    for name, rows in out.items():
+        naming = [FILES[name].columns.index(c) for c in _NAMING.get(name, ())]
+        kept[name] = [tuple(hide(v) for v in row) for row in rows
+                      if not any((row[i] or "").lower() in hidden for i in naming)]
+    return kept
 
 
-def _all_export_rows(s: Session) -> dict[str, list[dict[str, Any]]]:
+def _texts(*columns: Any) -> list[Any]:
+    """The columns with an absent value as the empty text, as the CSV file writes it."""
+    return [func.coalesce(column, "") for column in columns]
+
+
+def _all_export_rows(s: Session, files: Iterable[str]) -> dict[str, list[tuple]]:
+    """The rows of the files named; the large files (sources and attestations) are joined and ordered in SQL."""
+    wanted = [name for name in FILES if name in set(files)]
     place = dict(s.execute(select(Place.id, Place.key)).all())
     repository = dict(s.execute(select(Repository.id, Repository.key)).all())
-    collection = dict(s.execute(select(Collection.id, Collection.key)).all())
-    person = dict(s.execute(select(Person.id, Person.key)).all())
     group = dict(s.execute(select(Group.id, Group.key)).all())
-    source = dict(s.execute(select(Source.id, Source.key)).all())
     kind = dict(s.execute(select(RelationKind.id, RelationKind.key)).all())
-    collection_repository = dict(s.execute(select(Collection.id, Collection.repository_id)).all())
-    variants: dict[int, list[str]] = {}
-    for person_id, name in s.execute(select(PersonName.person_id, PersonName.name).order_by(PersonName.id)):
-        variants.setdefault(person_id, []).append(name)
-    identifiers: dict[int, list[str]] = {}
-    for person_id, scheme, value in s.execute(
-        select(PersonIdentifier.person_id, PersonIdentifier.scheme, PersonIdentifier.value).order_by(PersonIdentifier.id)
-    ):
-        identifiers.setdefault(person_id, []).append(f"{scheme}:{value}")
+    made = {name: getattr(_FileRows, name.removesuffix(".csv")) for name in wanted}
+    return {name: make(s, place=place, repository=repository, group=group, kind=kind) for name, make in made.items()}
 
-    out: dict[str, list[dict[str, Any]]] = {name: [] for name in FILES}
-    for p in s.scalars(select(Place).order_by(Place.id)):
-        out["places.csv"].append({"key": p.key, "name": p.name, "variants": p.variants, "latitude": _number(p.latitude),
-                                  "longitude": _number(p.longitude), "identifier": p.identifier})
-    for r in s.scalars(select(Repository).order_by(Repository.id)):
-        out["repositories.csv"].append({"key": r.key, "name": r.name, "place": place.get(r.place_id), "note": r.note})
-    for c in s.scalars(select(Collection).order_by(Collection.id)):
-        out["collections.csv"].append({"key": c.key, "repository": repository[c.repository_id], "name": c.name,
-                                       "reference_code": c.reference_code, "note": c.note})
-    for p in s.scalars(select(Person).order_by(Person.id)):
-        out["persons.csv"].append({
-            "key": p.key, "name": p.name, "sort_name": p.sort_name, "kind": p.kind, "unidentified": _yes(p.unidentified),
-            "living": _yes(p.living), "variants": "|".join(v for v in variants.get(p.id, []) if v != p.name),
-            "born": p.born_text, "died": p.died_text, "calendar": p.calendar,
-            "identifiers": "|".join(identifiers.get(p.id, [])), "note": p.note,
-        })
-    for g in s.scalars(select(Group).order_by(Group.id)):
-        out["groups.csv"].append({"key": g.key, "name": g.name, "kind": g.kind, "place": place.get(g.place_id),
-                                  "parent": group.get(g.parent_id), "start": g.start_text, "end": g.end_text, "note": g.note})
-    for x in s.scalars(select(Source).order_by(Source.id)):
-        out["sources.csv"].append({
-            "key": x.key, "repository": repository.get(collection_repository.get(x.collection_id)),
-            "collection": collection.get(x.collection_id), "reference": x.reference, "kind": x.kind, "title": x.title,
-            "author": x.author, "publisher": x.publisher, "year": x.year, "pages": x.pages, "date": x.date_text,
-            "calendar": x.calendar, "place_from": place.get(x.place_from_id), "place_to": place.get(x.place_to_id),
-            "received": x.received_text, "copy_of": source.get(x.copy_of_id), "url": x.url, "note": x.note,
-        })
-    for k in s.scalars(select(RelationKind).order_by(RelationKind.id)):
-        out["relation_kinds.csv"].append({"key": k.key, "label": k.label, "directed": _yes(k.directed), "role_a": k.role_a,
-                                          "role_b": k.role_b, "parent": kind.get(k.parent_id)})
-    alive = Attestation.deleted_at.is_(None)
-    common = lambda a: {  # noqa: E731 - the columns every attestation row shares
-        "key": a.key, "source": source[a.source_id], "locus": a.locus, "evidence": a.evidence, "date": a.date_text,
-        "certainty": a.certainty, "quote": a.quote, "note": a.note,
-    }
-    for a, r in s.execute(select(Attestation, Relation).join(Relation).where(alive).order_by(Attestation.id)):
-        out["relations.csv"].append({
-            **common(a), "person": person[r.person_a_id], "other": person[r.person_b_id], "kind": kind[r.kind_id],
-            "calendar": a.calendar, "place": place.get(a.place_id), "identification": a.identification,
-            "person_as_written": a.name_a_as_written, "other_as_written": a.name_b_as_written,
-        })
-    for a, m in s.execute(select(Attestation, Membership).join(Membership).where(alive).order_by(Attestation.id)):
-        out["memberships.csv"].append({**common(a), "person": person[m.person_id], "group": group[m.group_id],
-                                       "role": m.role or None, "start": m.start_text, "end": m.end_text})
-    for a, f in s.execute(select(Attestation, PersonFact).join(PersonFact).where(alive).order_by(Attestation.id)):
-        out["facts.csv"].append({**common(a), "date": f.date_text, "person": person[f.person_id], "fact": f.kind,
-                                 "value": f.value or None, "place": place.get(f.place_id)})
-    return out
+
+class _FileRows:
+    """One function per workbook file, giving its rows; the small tables' keys by id are passed to each."""
+
+    @staticmethod
+    def places(s: Session, **_: dict) -> list[tuple]:
+        return [(p.key, p.name, p.variants, _number(p.latitude), _number(p.longitude), p.identifier)
+                for p in s.execute(select(Place.__table__).order_by(Place.id))]
+
+    @staticmethod
+    def repositories(s: Session, *, place: dict, **_: dict) -> list[tuple]:
+        return [(r.key, r.name, place.get(r.place_id), r.note)
+                for r in s.execute(select(Repository.__table__).order_by(Repository.id))]
+
+    @staticmethod
+    def collections(s: Session, *, repository: dict, **_: dict) -> list[tuple]:
+        return [(c.key, repository[c.repository_id], c.name, c.reference_code, c.note)
+                for c in s.execute(select(Collection.__table__).order_by(Collection.id))]
+
+    @staticmethod
+    def persons(s: Session, **_: dict) -> list[tuple]:
+        variants: dict[int, list[str]] = {}
+        for person_id, name in s.execute(select(PersonName.person_id, PersonName.name).order_by(PersonName.id)):
+            variants.setdefault(person_id, []).append(name)
+        identifiers: dict[int, list[str]] = {}
+        for person_id, scheme, value in s.execute(
+            select(PersonIdentifier.person_id, PersonIdentifier.scheme, PersonIdentifier.value).order_by(PersonIdentifier.id)
+        ):
+            identifiers.setdefault(person_id, []).append(f"{scheme}:{value}")
+        return [(p.key, p.name, p.sort_name, p.kind, _yes(p.unidentified), _yes(p.living),
+                 "|".join(v for v in variants.get(p.id, []) if v != p.name), p.born_text, p.died_text, p.calendar,
+                 "|".join(identifiers.get(p.id, [])), p.note)
+                for p in s.execute(select(Person.__table__).order_by(Person.id))]
+
+    @staticmethod
+    def groups(s: Session, *, place: dict, group: dict, **_: dict) -> list[tuple]:
+        return [(g.key, g.name, g.kind, place.get(g.place_id), group.get(g.parent_id), g.start_text, g.end_text, g.note)
+                for g in s.execute(select(Group.__table__).order_by(Group.id))]
+
+    @staticmethod
+    def sources(s: Session, **_: dict) -> list[tuple]:
+        place_from, place_to, original = aliased(Place), aliased(Place), aliased(Source)
+        in_collection, in_repository = aliased(Collection), aliased(Repository)
+        return _rows_of(s, select(*_texts(
+            Source.key, in_repository.key, in_collection.key, Source.reference, Source.kind, Source.title, Source.author,
+            Source.publisher, Source.year, Source.pages, Source.date_text, Source.calendar, place_from.key, place_to.key,
+            Source.received_text, original.key, Source.url, Source.note))
+            .outerjoin(in_collection, Source.collection_id == in_collection.id)
+            .outerjoin(in_repository, in_collection.repository_id == in_repository.id)
+            .outerjoin(place_from, Source.place_from_id == place_from.id)
+            .outerjoin(place_to, Source.place_to_id == place_to.id)
+            .outerjoin(original, Source.copy_of_id == original.id)
+            .order_by(Source.id))
+
+    @staticmethod
+    def relation_kinds(s: Session, *, kind: dict, **_: dict) -> list[tuple]:
+        return [(k.key, k.label, _yes(k.directed), k.role_a, k.role_b, kind.get(k.parent_id))
+                for k in s.execute(select(RelationKind.__table__).order_by(RelationKind.id))]
+
+    @staticmethod
+    def relations(s: Session, **_: dict) -> list[tuple]:
+        person_a, person_b, at_place = aliased(Person), aliased(Person), aliased(Place)
+        return _rows_of(s, select(*_texts(
+            Attestation.key, person_a.key, person_b.key, RelationKind.key, Source.key, Attestation.locus,
+            Attestation.evidence, Attestation.date_text, Attestation.calendar, at_place.key, Attestation.certainty,
+            Attestation.identification, Attestation.name_a_as_written, Attestation.name_b_as_written, Attestation.quote,
+            Attestation.note))
+            .join(Relation, Attestation.relation_id == Relation.id)
+            .join(person_a, Relation.person_a_id == person_a.id).join(person_b, Relation.person_b_id == person_b.id)
+            .join(RelationKind, Relation.kind_id == RelationKind.id).join(Source, Attestation.source_id == Source.id)
+            .outerjoin(at_place, Attestation.place_id == at_place.id)
+            .where(Attestation.deleted_at.is_(None)).order_by(Attestation.id))
+
+    @staticmethod
+    def memberships(s: Session, *, group: dict, **_: dict) -> list[tuple]:
+        member = aliased(Person)
+        return [(key, person, group[group_id], role or None, *rest) for key, person, group_id, role, *rest in s.execute(
+            select(Attestation.key, member.key, Membership.group_id, Membership.role, Membership.start_text,
+                   Membership.end_text, Source.key, Attestation.locus, Attestation.evidence, Attestation.date_text,
+                   Attestation.certainty, Attestation.quote, Attestation.note)
+            .join(Membership, Attestation.membership_id == Membership.id)
+            .join(member, Membership.person_id == member.id).join(Source, Attestation.source_id == Source.id)
+            .where(Attestation.deleted_at.is_(None)).order_by(Attestation.id)
+        )]  # fmt: skip
+
+    @staticmethod
+    def facts(s: Session, *, place: dict, **_: dict) -> list[tuple]:
+        subject = aliased(Person)
+        return [(key, person, fact, value or None, place.get(place_id), *rest) for key, person, fact, value, place_id, *rest in s.execute(
+            select(Attestation.key, subject.key, PersonFact.kind, PersonFact.value, PersonFact.place_id,
+                   PersonFact.date_text, Source.key, Attestation.locus, Attestation.evidence, Attestation.certainty,
+                   Attestation.quote, Attestation.note)
+            .join(PersonFact, Attestation.fact_id == PersonFact.id)
+            .join(subject, PersonFact.person_id == subject.id).join(Source, Attestation.source_id == Source.id)
+            .where(Attestation.deleted_at.is_(None)).order_by(Attestation.id)
+        )]  # fmt: skip
+
+
+def _rows_of(s: Session, statement: Any) -> list[tuple]:
+    """Plain tuples of a Core query (no ORM rows: the large files have 100,000s of them)."""
+    return list(map(tuple, s.connection().execute(statement).all()))

@@ -23,8 +23,11 @@ __all__ = [
     "AuditRow",
     "REDACTED",
     "bump_data_version",
+    "ChangeNote",
     "get_change",
     "list_changes",
+    "list_changes_after",
+    "latest_entry_id",
     "record_change",
     "redact_change",
 ]
@@ -66,6 +69,41 @@ def record_change(
     session.add(entry)
     session.flush()
     return entry
+
+
+@dataclass(frozen=True)
+class ChangeNote:
+    """What one write touched, as far as its entry says: the table, the action and the record's key before and after."""
+
+    entry_id: int
+    table: str | None
+    action: str
+    key_before: str | None
+    key_after: str | None
+
+
+def list_changes_after(*, session: Session, entry_id: int) -> list[ChangeNote]:
+    """Return the entries written after entry ``entry_id``, oldest first (0: every entry)."""
+    notes = []
+    for id_, table, action, before, after in session.execute(
+        select(AuditEntry.id, AuditEntry.table_name, AuditEntry.action, AuditEntry.before_json, AuditEntry.after_json)
+        .where(AuditEntry.id > entry_id).order_by(AuditEntry.id)
+    ):
+        notes.append(ChangeNote(id_, table, action, _key_in(before), _key_in(after)))
+    return notes
+
+
+def latest_entry_id(*, session: Session) -> int:
+    """Return the id of the newest audit entry (0 when there is none)."""
+    return session.scalar(select(func.max(AuditEntry.id))) or 0
+
+
+def _key_in(snapshot: str | None) -> str | None:
+    try:
+        value = json.loads(snapshot) if snapshot else None
+    except ValueError:
+        return None
+    return value.get("key") if isinstance(value, dict) and isinstance(value.get("key"), str) else None
 
 
 def _now() -> datetime:

@@ -36,13 +36,17 @@ __all__ = ["router"]
 
 
 def relations_only(slice_: SliceDep) -> None:
-    """Refuse ``mode=co-membership|both``: the exported files hold relations and their evidence only."""
+    """Refuse ``mode=co-membership|both`` for the slice's files: they hold relations and their evidence only.
+
+    The export page, the drawings (which show the slice as its page does) and the snapshot take any mode.
+    """
     if slice_.mode != "relations":
         raise BadParameter("mode", slice_.mode, "relations for exports (the co-membership matrices download from "
                            "/network/two-mode)")
 
 
-router = APIRouter(tags=["exports"], dependencies=[Depends(relations_only)])
+router = APIRouter(tags=["exports"])
+RELATIONS_ONLY = [Depends(relations_only)]
 
 RESTRICTED_CHOICES = ("leave-out", "include")
 INCLUDE_REFUSED = ("Only an admin may export restricted persons (recorded as living, or born too recently); "
@@ -105,12 +109,20 @@ class ExportPage:
     """The slice (and the restricted-persons choice) as (name, value) pairs, carried by the drawing form."""
     person: str | None = None
     """The person whose ego drawing the form offers first (the page's ``person`` parameter)."""
+    shared_groups: list[ExportLink] = field(default_factory=list)
+    """Under ``mode=co-membership|both``: the two-mode page's matrices of the ties by shared groups (the files above
+    hold the slice's relations only)."""
 
 
 def export_links(request: Request, slice_: Slice, restricted: str = "leave-out") -> list[ExportLink]:
-    """Return the downloads of a slice, shared by the export page and the export section of the network pages."""
+    """Return the downloads of a slice, shared by the export page and the export section of the network pages.
+
+    The files hold relations and their evidence: under ``mode=co-membership|both`` they are those of the
+    same slice's relations (the ties by shared groups download as matrices from the two-mode page).
+    """
     urls = urls_for(request)
     extra = {"restricted": "include"} if restricted == "include" else {}
+    slice_ = slice_.with_(mode="relations")
     return [
         ExportLink("GraphML", urls.export("graphml", slice_, **extra), "persons and ties with their attributes, for network software"),
         ExportLink("Persons (CSV)", urls.export("nodes.csv", slice_, **extra), "one row per person: names, life dates, identifiers, stored measures"),
@@ -132,7 +144,21 @@ def export_view(request: Request, session: Session, slice_: Slice, leave_out: Re
                       restricted_count=len(restricted_persons(request).ids),
                       may_include=current_actor(request).can("admin"), include_action=urls.export("", slice_),
                       drawing_svg=urls.export("ego.svg"), drawing_png=urls.export("ego.png"),
-                      slice_fields=slice_.to_query() + list(extra.items()), person=(person or "").strip() or None)
+                      slice_fields=slice_.to_query() + list(extra.items()), person=(person or "").strip() or None,
+                      shared_groups=shared_group_links(request, slice_))
+
+
+def shared_group_links(request: Request, slice_: Slice) -> list[ExportLink]:
+    """Return, for a slice with ties by shared groups, the two-mode page's CSV matrices of them (else nothing)."""
+    if slice_.mode == "relations":
+        return []
+    urls = urls_for(request)
+    return [
+        ExportLink("Person × group matrix (CSV)", urls.network("two-mode", slice_, format="csv", table="incidence"),
+                   "the memberships the slice keeps, 1 or 0"),
+        ExportLink("Person × person matrix (CSV)", urls.network("two-mode", slice_, format="csv", table="person_projection"),
+                   "the ties by shared groups, weighted as the slice says"),
+    ]
 
 
 _PERSON = Query(None, description="A person key: the drawing form offers this person's ego drawing.")
@@ -159,7 +185,8 @@ def _download(data: bytes | str, media_type: str, filename: str) -> Response:
     return Response(data, media_type=media_type, headers={"Content-Disposition": f'attachment; filename="{filename}"'})
 
 
-@router.get("/export/graphml", response_class=Response, summary="The slice as GraphML",
+@router.get("/export/graphml", response_class=Response, dependencies=RELATIONS_ONLY,
+            summary="The slice as GraphML",
             description="Persons (id = key; name, kind, life dates, identifiers, stored centralities) and ties (kind, "
                         "weight, attestations, documents, source keys) as GraphML." + _SLICE,
             responses={200: {"content": {"application/graphml+xml": {}}}})
@@ -167,25 +194,29 @@ def export_graphml(session: SessionDep, slice_: SliceDep, leave_out: LeftOut) ->
     return _download(to_graphml(slice_export(session, slice_, leave_out=leave_out)), "application/graphml+xml", "slice.graphml")
 
 
-@router.get("/export/nodes.csv", response_class=Response, summary="The slice's persons as CSV",
+@router.get("/export/nodes.csv", response_class=Response, dependencies=RELATIONS_ONLY,
+            summary="The slice's persons as CSV",
             description="One row per person of the slice with its attributes and stored centralities." + _SLICE)
 def export_nodes(session: SessionDep, slice_: SliceDep, leave_out: LeftOut) -> Response:
     return _download(nodes_csv(slice_export(session, slice_, leave_out=leave_out)), "text/csv; charset=utf-8", "slice-persons.csv")
 
 
-@router.get("/export/edges.csv", response_class=Response, summary="The slice's ties as CSV",
+@router.get("/export/edges.csv", response_class=Response, dependencies=RELATIONS_ONLY,
+            summary="The slice's ties as CSV",
             description="One row per tie of the slice: kinds, weight, attestations, documents and source keys." + _SLICE)
 def export_edges(session: SessionDep, slice_: SliceDep, leave_out: LeftOut) -> Response:
     return _download(edges_csv(slice_export(session, slice_, leave_out=leave_out)), "text/csv; charset=utf-8", "slice-ties.csv")
 
 
-@router.get("/export/matrix.csv", response_class=Response, summary="The slice's adjacency matrix as CSV",
+@router.get("/export/matrix.csv", response_class=Response, dependencies=RELATIONS_ONLY,
+            summary="The slice's adjacency matrix as CSV",
             description="Tie weights from the row person to the column person, persons in key order." + _SLICE)
 def export_matrix(session: SessionDep, slice_: SliceDep, leave_out: LeftOut) -> Response:
     return _download(adjacency_csv(slice_export(session, slice_, leave_out=leave_out)), "text/csv; charset=utf-8", "slice-matrix.csv")
 
 
-@router.get("/export/sources.json", response_class=Response, summary="The slice's sources as CSL-JSON",
+@router.get("/export/sources.json", response_class=Response, dependencies=RELATIONS_ONLY,
+            summary="The slice's sources as CSL-JSON",
             description="The documents that attest the slice's ties as CSL-JSON items: archival ones as `manuscript` "
                         "with archive, archive_location and call-number, printed ones as `book` with author, title, "
                         "publisher and issued." + _SLICE)
@@ -237,6 +268,32 @@ def export_ego_png(request: Request, session: SessionDep, slice_: SliceDep, leav
     # cairosvg ignores paint-order, so the labels' white halo would be painted over their letters.
     svg = svg.replace("</style>", ".ego-svg .ego-label { stroke: none; }</style>", 1)
     return _download(cairosvg.svg2png(bytestring=svg.encode("utf-8"), scale=2, unsafe=False), "image/png", f"{name}.png")
+
+
+@router.get("/export/two-mode.svg", response_class=Response, summary="The two-mode drawing as SVG",
+            description="The drawing of the two-mode page (persons and the groups they belong to) with a caption naming "
+                        "the slice and the dataset version." + _SLICE,
+            responses={200: {"content": {"image/svg+xml": {}}}})
+def export_two_mode_svg(request: Request, session: SessionDep, slice_: SliceDep, leave_out: LeftOut) -> Response:
+    return _download(_two_mode_svg(request, session, slice_, leave_out), "image/svg+xml", "two-mode.svg")
+
+
+@router.get("/export/two-mode.png", response_class=Response, summary="The two-mode drawing as PNG",
+            description="The same drawing as `/export/two-mode.svg`, rendered to PNG at twice its size (cairosvg)." + _SLICE,
+            responses={200: {"content": {"image/png": {}}}})
+def export_two_mode_png(request: Request, session: SessionDep, slice_: SliceDep, leave_out: LeftOut) -> Response:
+    import cairosvg
+
+    svg = _two_mode_svg(request, session, slice_, leave_out)
+    # cairosvg ignores paint-order, so the labels' white halo would be painted over their letters.
+    svg = svg.replace("</style>", ".two-mode-svg .tm-label { stroke: none; }</style>", 1)
+    return _download(cairosvg.svg2png(bytestring=svg.encode("utf-8"), scale=2, unsafe=False), "image/png", "two-mode.png")
+
+
+def _two_mode_svg(request: Request, session: Session, slice_: Slice, leave_out: RestrictedPersons | None) -> str:
+    from app.views.twomode import two_mode_download
+
+    return two_mode_download(request, session, slice_, cached_dataset_version(request, session).sha256, leave_out)
 
 
 def ego_svg_text(request: Request, session: Session, slice_: Slice, person: str, radius: str,

@@ -4,6 +4,7 @@ incidence and projected matrices as CSV (``?format=csv&table=...``), all from on
 
 from __future__ import annotations
 
+import textwrap
 from collections.abc import Iterable
 from dataclasses import dataclass
 
@@ -30,12 +31,14 @@ from app.network.twomode import (
 from app.store.groups import GroupRef, group_refs
 from app.store.network_labels import list_person_labels
 from app.store.persons import PersonRef
-from app.views.common import BadParameter, SessionDep, SliceDep, page_number, render
-from app.views.redaction import redact_for
+from app.store.privacy import RestrictedPersons
+from app.store.summary import get_data_version
+from app.views.common import BadParameter, SessionDep, SliceDep, page_number, render, templates, urls_for
+from app.views.redaction import Redactor, redact_for
 from app.views.slicing import SliceControls, slice_controls
 from app.views.tables import Table, csv_response
 
-__all__ = ["PAGED", "TABLES", "TablePage", "TwoModePage", "two_mode_csv", "two_mode_view", "router"]
+__all__ = ["PAGED", "TABLES", "TablePage", "TwoModePage", "two_mode_csv", "two_mode_download", "two_mode_view", "router"]
 
 router = APIRouter(tags=["network"])
 
@@ -362,6 +365,29 @@ def two_mode_csv(*, session: Session, slice_: Slice, table: str | None, weightin
         projection = project(evidence, onto=onto, weighting=weighting, overlap=slice_.overlap)
         text = adjacency_csv(projection, labels=groups if onto == "groups" else people)
     return text, f"two-mode-{table}-{weighting}.csv" if table.endswith("projection") else "two-mode-incidence.csv"
+
+
+def two_mode_download(request: Request, session: Session, slice_: Slice, cited: str,
+                      leave_out: RestrictedPersons | None = None) -> str:
+    """Return the two-mode drawing of the page as a standalone SVG, with a caption naming the slice and the dataset
+    version ``cited`` (its first 16 hex digits, as the ego drawings give it) and the data version.
+
+    Restricted persons are redacted as on the page; with ``leave_out`` (the export files' rule) they read
+    "restricted person" for every role.
+    """
+    evidence = _evidence(session, slice_)
+    summary = two_mode_summary(bipartite_graph(evidence, weight=slice_.weight))
+    people = _person_refs(session, summary.person_degree)
+    groups = group_refs(session=session, group_ids=summary.group_degree)
+    drawing = redact_for(request, two_mode_drawing(evidence, persons=people, groups=groups))
+    if leave_out is not None:
+        drawing = Redactor(leave_out).redact(drawing)
+    notes = " ".join(drawing.notes)
+    caption = (f"Persons (left) and the groups they belong to (right): {summary.persons} persons, {summary.groups} "
+               f"groups, {summary.memberships} memberships. {notes + ' ' if notes else ''}Slice: {slice_.describe()}. "
+               f"Attesta, dataset version {cited[:16]} (data version {get_data_version(session=session)}).")
+    return templates.get_template("two_mode_download.svg").render(
+        drawing=drawing, slice=slice_, urls=urls_for(request), caption_lines=textwrap.wrap(caption, 110))
 
 
 def _table_text(table: Table) -> str:

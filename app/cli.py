@@ -333,6 +333,49 @@ def snapshot(database: str | None, slice_query: str, include_restricted: bool, a
                f"{cited.attestations} attestations")
 
 
+@main.command(name="export-drawing")
+@db_option
+@slice_option
+@restricted_options
+@click.option("--radius", type=click.Choice(["1", "2"]), default="1", show_default=True, help="Steps from the person.")
+@click.argument("person", metavar="PERSON_KEY")
+@click.argument("output", type=click.Path(path_type=Path))
+@reports_problems
+def export_drawing_command(database: str | None, slice_query: str, include_restricted: bool, as_user: str | None,
+                           radius: str, person: str, output: Path) -> None:
+    """Write the ego network drawing of one person as SVG or PNG (by OUTPUT's suffix), with the caption
+    naming the slice and the dataset version (restricted persons read "restricted person" unless an admin asks)."""
+    from fastapi import HTTPException
+
+    from app.exchange.drawing_png import png_of
+    from app.exchange.snapshot import dataset_version
+    from app.views.common import Urls
+    from app.views.ego import ego_panel, standalone_ego_svg
+    from app.views.redaction import Redactor
+
+    suffix = output.suffix.lower()
+    if suffix not in (".svg", ".png"):
+        _fail(f"{output}: the file name must end in .svg or .png")
+    settings, db = _open(database)
+    check_schema(db)
+    leave_out = _left_out(settings, db, include=include_restricted, as_user=as_user)
+    with db.read() as session:
+        try:
+            view = ego_panel(session=session, person_key=person, slice=_slice(slice_query), radius=int(radius))
+        except HTTPException as error:
+            _fail(str(error.detail))
+        if leave_out is not None:
+            redactor = Redactor(leave_out)
+            if redactor.is_about_restricted(view):
+                _fail(f"{person} is a restricted person: their drawing is written only when an admin asks "
+                      "(--include-restricted --as-user ADMIN)")
+            view = redactor.redact(view)
+        svg, _name = standalone_ego_svg(view, urls=Urls(""), dataset_sha256=dataset_version(session).sha256)
+    output.write_bytes(png_of(svg, label_class=".ego-svg .ego-label") if suffix == ".png" else svg.encode("utf-8"))
+    click.echo(f"{output}: ego network of {view.name}, radius {view.radius}, {len(view.drawing.nodes)} persons, "
+               f"{len(view.drawing.edges)} ties drawn (data version {view.data_version})")
+
+
 @main.command()
 @db_option
 @click.option("--replace", is_flag=True, help="Replace an existing database file.")

@@ -153,12 +153,12 @@ def test_a_snapshot_leaves_them_out_unless_an_admin_asks(world):
 # --- the command -----------------------------------------------------------------------------
 
 
-COMMANDS = [["export"], ["export-tables"], ["export-graphml"], ["snapshot"]]
+COMMANDS = [["export"], ["export-tables"], ["export-graphml"], ["snapshot"], ["export-drawing", "--radius", "2", "p-anna"]]
 
 
 def _target(tmp_path, command, name):
-    return tmp_path / (f"{name}.graphml" if command == ["export-graphml"] else f"{name}.zip" if command == ["snapshot"]
-                       else name)
+    suffix = {"export-graphml": ".graphml", "snapshot": ".zip", "export-drawing": ".svg"}.get(command[0], "")
+    return tmp_path / f"{name}{suffix}"
 
 
 @pytest.mark.parametrize("command", COMMANDS)
@@ -172,7 +172,7 @@ def test_the_command_leaves_them_out_by_default_and_gives_them_to_an_admin_who_a
     target = _target(tmp_path, command, "admin")
     result = attesta(*command, "--db", str(path), "--include-restricted", "--as-user", "ada", str(target))
     assert result.returncode == 0, result.stderr
-    assert "p-zorwald" in _read(target)
+    assert "Zorwald" in _read(target)  # by name: a standalone drawing names persons without their keys
 
 
 @pytest.mark.parametrize("user", ["rhea", "edmund", "ada"])
@@ -194,6 +194,17 @@ def test_the_command_refuses_restricted_persons_to_anyone_but_an_admin(world, tm
         result = attesta(*command, "--db", str(path), "--include-restricted", *who, str(target))
         assert result.returncode == 1 and refusal in result.stderr, result.stderr
         assert not target.exists()
+
+
+def test_the_drawing_command_refuses_a_drawing_centred_on_a_restricted_person_unless_an_admin_asks(world, tmp_path):
+    path, _ = world
+    refused = attesta("export-drawing", "--db", str(path), "p-zorwald", str(tmp_path / "refused.svg"))
+    assert refused.returncode == 1 and "p-zorwald is a restricted person" in refused.stderr
+    assert not (tmp_path / "refused.svg").exists()
+    given = attesta("export-drawing", "--db", str(path), "--include-restricted", "--as-user", "ada", "p-zorwald",
+                    str(tmp_path / "given.png"))
+    assert given.returncode == 0, given.stderr
+    assert (tmp_path / "given.png").read_bytes()[:8] == b"\x89PNG\r\n\x1a\n"  # the PNG signature (RFC 2083, 12.12)
 
 
 def _read(target) -> str:

@@ -143,6 +143,37 @@ def test_bad_graphml_gets_messages_with_lines_and_changes_nothing(database):
     assert row_counts(database) == before
 
 
+# An entity expansion ("billion laughs") and an external entity, the two attacks the Python
+# documentation's "XML vulnerabilities" table lists for XML parsers; common practice: refuse any DTD entity.
+GRAPHML_BOMB = b"""<?xml version="1.0"?>
+<!DOCTYPE graphml [
+  <!ENTITY lol "lol">
+  <!ENTITY lol2 "&lol;&lol;&lol;&lol;&lol;&lol;&lol;&lol;&lol;&lol;">
+  <!ENTITY lol3 "&lol2;&lol2;&lol2;&lol2;&lol2;&lol2;&lol2;&lol2;&lol2;&lol2;">
+]>
+<graphml xmlns="http://graphml.graphdrawing.org/xmlns">
+  <key id="n" for="node" attr.name="name" attr.type="string"/>
+  <graph edgedefault="directed"><node id="a"><data key="n">&lol3;</data></node><node id="b"/><edge source="a" target="b"/></graph>
+</graphml>"""
+GRAPHML_EXTERNAL = b"""<?xml version="1.0"?>
+<!DOCTYPE graphml [ <!ENTITY secret SYSTEM "file:///etc/passwd"> ]>
+<graphml xmlns="http://graphml.graphdrawing.org/xmlns">
+  <key id="n" for="node" attr.name="name" attr.type="string"/>
+  <graph edgedefault="directed"><node id="a"><data key="n">&secret;</data></node><node id="b"/><edge source="a" target="b"/></graph>
+</graphml>"""
+
+
+@pytest.mark.parametrize("name, data", [("bomb.graphml", GRAPHML_BOMB), ("external.graphml", GRAPHML_EXTERNAL)])
+def test_graphml_with_entities_is_refused_with_a_clear_message_and_changes_nothing(database, name, data):
+    before = row_counts(database)
+    with pytest.raises(WorkbookError) as caught:
+        import_graphml(database, data, name, source_title=TITLE, kind="letter")
+    message = str(caught.value)
+    assert name in message and "entit" in message.lower(), message
+    assert "root:" not in message  # nothing of /etc/passwd is read into the message
+    assert row_counts(database) == before
+
+
 def test_export_routes_answer_every_file_of_the_slice(world, settings):
     client = TestClient(create_app(settings))
     graphml = client.get("/export/graphml?kind=letter")

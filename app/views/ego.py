@@ -25,12 +25,12 @@ from app.network.ego_memberships import ego_network_in_mode
 from app.network.slice import Slice, resolve_slice
 from app.store.network_labels import get_person_label, list_relation_kinds
 from app.store.summary import get_data_version
-from app.views.common import BadParameter, SessionDep, SliceDep, render, templates, urls_for
+from app.views.common import BadParameter, SessionDep, SliceDep, Urls, render, templates, urls_for
 from app.store.privacy import RestrictedPersons
 from app.views.redaction import Redactor, redact_for
 from app.views.slicing import SliceControls, slice_controls
 
-__all__ = ["EgoPanel", "ego_panel", "router"]
+__all__ = ["EgoPanel", "ego_panel", "router", "standalone_ego_svg"]
 
 router = APIRouter(tags=["network"])
 RADII = ("1", "2")
@@ -199,14 +199,10 @@ def ego_download(request: Request, session: Session, slice: Slice, key: str, rad
                  leave_out: RestrictedPersons | None = None) -> tuple[str, str]:
     """Return the standalone SVG of an ego drawing, as the viewer may see it, and a file name for it.
 
-    The caption names the person, the radius, the slice and the dataset version (the first 16
-    hex digits of the content hash the export page cites) with the data version; a drawing about a
-    restricted person is refused to a reader (403), as the page is. With ``leave_out`` (the export
-    page's files, for every role unless an admin asks for everyone) those persons read "restricted
-    person" and a drawing centred on one is refused.
+    A drawing about a restricted person is refused to a reader (403), as the page is. With
+    ``leave_out`` (the export page's files, for every role unless an admin asks for everyone) those
+    persons read "restricted person" and a drawing centred on one is refused.
     """
-    from app.views.dataset_version import cached_dataset_version  # snapshot code, needed for downloads only
-
     view = redact_for(request, ego_panel(session=session, person_key=key, slice=slice, radius=_radius(radius)))
     if leave_out is not None:
         redactor = Redactor(leave_out)
@@ -214,10 +210,23 @@ def ego_download(request: Request, session: Session, slice: Slice, key: str, rad
             raise HTTPException(403, "This is a restricted person: their ego drawing is exported only when an admin "
                                      "asks for restricted persons (restricted=include).")
         view = redactor.redact(view)
-    cited = cached_dataset_version(request, session).sha256
+    return standalone_ego_svg(view, urls=urls_for(request), dataset_sha256=cited_sha(request, session))
+
+
+def cited_sha(request: Request, session: Session) -> str:
+    """Return the content hash the export page cites, kept between writes."""
+    from app.views.dataset_version import cached_dataset_version  # snapshot code, needed for downloads only
+
+    return cached_dataset_version(request, session).sha256
+
+
+def standalone_ego_svg(view: EgoPanel, *, urls: Urls, dataset_sha256: str) -> tuple[str, str]:
+    """Return the drawing of ``view`` as a standalone SVG file, and a file name for it (web and command line).
+
+    The caption names the person, the radius, the slice and the dataset version (the first 16
+    hex digits of the content hash the export page cites) with the data version.
+    """
     caption = (f"Ego network of {view.name} ({view.key}), radius {view.radius}. Slice: {view.summary}. "
-               f"Attesta, dataset version {cited[:16]} (data version {view.data_version}).")  # fmt: skip
-    svg = templates.get_template("ego_download.svg").render(
-        page=view, urls=urls_for(request), caption_lines=textwrap.wrap(caption, 120)
-    )
+               f"Attesta, dataset version {dataset_sha256[:16]} (data version {view.data_version}).")  # fmt: skip
+    svg = templates.get_template("ego_download.svg").render(page=view, urls=urls, caption_lines=textwrap.wrap(caption, 120))
     return svg, f"ego-{view.key.replace(':', '_')}-radius{view.radius}"

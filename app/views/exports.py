@@ -22,6 +22,7 @@ from sqlalchemy.orm import Session
 
 from app.auth import CsrfChecked, CurrentActor, current_actor
 from app.exchange.csl import csl_items
+from app.exchange.drawing_png import png_of
 from app.exchange.network_export import adjacency_csv, edges_csv, nodes_csv, slice_export, to_graphml
 from app.exchange.snapshot import DatasetVersion, snapshot_bytes
 from app.network.slice import Slice
@@ -262,12 +263,8 @@ def export_ego_svg(request: Request, session: SessionDep, slice_: SliceDep, leav
             responses={200: {"content": {"image/png": {}}}})
 def export_ego_png(request: Request, session: SessionDep, slice_: SliceDep, leave_out: LeftOut, person: str = _KEY,
                    radius: str = _RADIUS) -> Response:
-    import cairosvg
-
     svg, name = ego_svg_text(request, session, slice_, person, radius, leave_out)
-    # cairosvg ignores paint-order, so the labels' white halo would be painted over their letters.
-    svg = svg.replace("</style>", ".ego-svg .ego-label { stroke: none; }</style>", 1)
-    return _download(cairosvg.svg2png(bytestring=svg.encode("utf-8"), scale=2, unsafe=False), "image/png", f"{name}.png")
+    return _download(png_of(svg, label_class=".ego-svg .ego-label"), "image/png", f"{name}.png")
 
 
 @router.get("/export/two-mode.svg", response_class=Response, summary="The two-mode drawing as SVG",
@@ -282,12 +279,8 @@ def export_two_mode_svg(request: Request, session: SessionDep, slice_: SliceDep,
             description="The same drawing as `/export/two-mode.svg`, rendered to PNG at twice its size (cairosvg)." + _SLICE,
             responses={200: {"content": {"image/png": {}}}})
 def export_two_mode_png(request: Request, session: SessionDep, slice_: SliceDep, leave_out: LeftOut) -> Response:
-    import cairosvg
-
     svg = _two_mode_svg(request, session, slice_, leave_out)
-    # cairosvg ignores paint-order, so the labels' white halo would be painted over their letters.
-    svg = svg.replace("</style>", ".two-mode-svg .tm-label { stroke: none; }</style>", 1)
-    return _download(cairosvg.svg2png(bytestring=svg.encode("utf-8"), scale=2, unsafe=False), "image/png", "two-mode.png")
+    return _download(png_of(svg, label_class=".two-mode-svg .tm-label"), "image/png", "two-mode.png")
 
 
 def _two_mode_svg(request: Request, session: Session, slice_: Slice, leave_out: RestrictedPersons | None) -> str:

@@ -88,6 +88,26 @@ def _migrate(url: str) -> None:
         db.dispose()
 
 
+@pytest.fixture(scope="session")
+def migrated_sqlite(tmp_path_factory) -> Path:  # noqa: ANN001
+    """One SQLite file migrated by Alembic for the session; a test's fresh SQLite database is a copy of it.
+
+    Copying the file is a millisecond, migrating it again a tenth of a second; the copy is the
+    same bytes (tests/test_migrations.py runs the migrations themselves).
+    """
+    path = tmp_path_factory.mktemp("migrated") / "attesta.db"
+    _migrate(database_url(path))
+    leftovers = [p.name for p in path.parent.iterdir() if p != path]
+    assert not leftovers, f"the migrated file left {leftovers} behind (an open connection?)"
+    return path
+
+
+def _migrated_copy(request, path: Path) -> str:  # noqa: ANN001
+    """Copy the session's migrated SQLite file to ``path``; return its URL."""
+    shutil.copyfile(request.getfixturevalue("migrated_sqlite"), path)
+    return database_url(path)
+
+
 class DatabaseUrls:
     """Hands out fresh migrated databases of one kind and gives them back at the end."""
 
@@ -95,6 +115,7 @@ class DatabaseUrls:
         self.kind = kind
         self.folder = folder
         self.server: PostgresServer | None = request.getfixturevalue("postgres") if kind == "postgresql" else None
+        self._request = request
         self._made: list[str] = []
 
     def new(self, name: str = "attesta", *, migrated: bool = True) -> str:
@@ -102,9 +123,8 @@ class DatabaseUrls:
         if self.server is not None:
             url = self.server.new_database(migrated=migrated)
         else:
-            url = database_url(self.folder / f"{name}-{len(self._made)}.db")
-            if migrated:
-                _migrate(url)
+            path = self.folder / f"{name}-{len(self._made)}.db"
+            url = _migrated_copy(self._request, path) if migrated else database_url(path)
         self._made.append(url)
         return url
 
@@ -138,12 +158,10 @@ def db_path(tmp_path: Path) -> Path:
 
 
 @pytest.fixture
-def db_url(db_kind: str, db_path: Path, database_urls: DatabaseUrls) -> str:
+def db_url(db_kind: str, db_path: Path, database_urls: DatabaseUrls, request) -> str:  # noqa: ANN001
     """URL of a migrated, empty database: the file ``db_path`` on SQLite."""
     if db_kind == "sqlite":
-        url = database_url(db_path)
-        _migrate(url)
-        return url
+        return _migrated_copy(request, db_path)
     return database_urls.new()
 
 

@@ -102,6 +102,36 @@ def migrated_sqlite(tmp_path_factory) -> Path:  # noqa: ANN001
     return path
 
 
+@pytest.fixture(scope="session")
+def demo_sqlite(migrated_sqlite: Path, tmp_path_factory):  # noqa: ANN001
+    """``demo_sqlite(path, actor=...)`` writes a copy of the demo imported into SQLite and returns ``path``.
+
+    The demo workbook is imported once per session for each audit ``actor`` (import_workbook's
+    own default when None) into a copy of the migrated file; each test gets a file copy of
+    that, as if it had imported the demo itself.
+    """
+    from app.exchange.workbook import import_workbook  # noqa: PLC0415 - only the tests that ask for the demo
+
+    built: dict[str | None, Path] = {}
+
+    def copy(path: Path, *, actor: str | None = None) -> Path:
+        if actor not in built:
+            source = tmp_path_factory.mktemp("demo") / "demo.db"
+            shutil.copyfile(migrated_sqlite, source)
+            database = Database(database_url(source))
+            try:
+                import_workbook(database, DEMO_WORKBOOK, size_limit=10**9, **({"actor": actor} if actor else {}))
+            finally:
+                database.dispose()
+            leftovers = [p.name for p in source.parent.iterdir() if p != source]
+            assert not leftovers, f"the demo file left {leftovers} behind (an open connection?)"
+            built[actor] = source
+        shutil.copyfile(built[actor], path)
+        return path
+
+    return copy
+
+
 def _migrated_copy(request, path: Path) -> str:  # noqa: ANN001
     """Copy the session's migrated SQLite file to ``path``; return its URL."""
     shutil.copyfile(request.getfixturevalue("migrated_sqlite"), path)

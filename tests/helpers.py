@@ -74,7 +74,7 @@ def served(command: list[str], base_url: str, environment: dict[str, str], *, ti
     """
     with tempfile.NamedTemporaryFile(prefix="attesta-server-", suffix=".log") as output:
         if command[:2] == [sys.executable, "-m"]:
-            server = preloaded().run(command[2], command[3:], env=environment, cwd=ROOT, output=output.name)
+            server = preloaded().run(command[2], command[3:], env=environment, cwd=ROOT, stdout=output.name)
         else:
             server = subprocess.Popen(command, cwd=ROOT, env=environment, stdout=output, stderr=subprocess.STDOUT)
         try:
@@ -87,6 +87,30 @@ def served(command: list[str], base_url: str, environment: dict[str, str], *, ti
             except subprocess.TimeoutExpired:
                 server.kill()
                 server.wait()
+
+
+def run_module(args: list[str], *, env: dict[str, str] | None = None, timeout: float = 120) -> subprocess.CompletedProcess:
+    """``subprocess.run([python, "-m", *args], capture_output=True, text=True, cwd=ROOT)``, forked.
+
+    The command runs in a process forked from the session's preloaded interpreter
+    (tests/preloaded.py) instead of a fresh one that imports the app again, with ``env`` (or
+    this process's environment) as its whole environment and an empty standard input.
+    """
+    environment = dict(os.environ if env is None else env)
+    with tempfile.NamedTemporaryFile(prefix="attesta-out-") as out, tempfile.NamedTemporaryFile(prefix="attesta-err-") as err:
+        process = preloaded().run(args[0], args[1:], env=environment, cwd=ROOT, stdout=out.name, stderr=err.name)
+        try:
+            code = process.wait(timeout=timeout)
+        except subprocess.TimeoutExpired:
+            process.kill()
+            process.wait()
+            raise
+        return subprocess.CompletedProcess([sys.executable, "-m", *args], code, _text(out), _text(err))
+
+
+def _text(output) -> str:  # noqa: ANN001
+    """What ``text=True`` makes of a command's output: decoded, with universal newlines."""
+    return _read(output).replace("\r\n", "\n").replace("\r", "\n")
 
 
 def _wait_until_answering(server: subprocess.Popen, base_url: str, timeout: float, output) -> None:  # noqa: ANN001

@@ -73,14 +73,12 @@ def _serve_requests() -> dict | None:
 
 
 def _become(request: dict) -> None:
-    """In the forked child: take the command's stdin, output, folder and environment."""
-    null = os.open(os.devnull, os.O_RDONLY)
-    output = os.open(request["output"], os.O_WRONLY | os.O_APPEND)
-    os.dup2(null, 0)
-    os.dup2(output, 1)
-    os.dup2(output, 2)
-    os.close(null)
-    os.close(output)
+    """In the forked child: take the command's stdin, output files, folder and environment."""
+    for number, path, flags in ((0, os.devnull, os.O_RDONLY), (1, request["stdout"], os.O_WRONLY | os.O_APPEND),
+                                (2, request["stderr"], os.O_WRONLY | os.O_APPEND)):  # fmt: skip
+        opened = os.open(path, flags)
+        os.dup2(opened, number)
+        os.close(opened)
     sys.stdin = open(0, encoding="utf-8", closefd=False)  # noqa: SIM115 - the process's own stdio
     sys.stdout = open(1, "w", encoding="utf-8", closefd=False)  # noqa: SIM115
     sys.stderr = open(2, "w", encoding="utf-8", errors="backslashreplace", closefd=False, buffering=1)  # noqa: SIM115
@@ -171,12 +169,18 @@ class PreloadedInterpreter:
         with self.changed:  # the interpreter is gone (it stopped its children first)
             self.changed.notify_all()
 
-    def run(self, module: str, args: list[str], *, env: dict[str, str], cwd: Path, output: str) -> ForkedProcess:
-        """Fork a process that runs ``python -m module args`` with ``env`` in ``cwd``, writing to the file ``output``."""
+    def run(self, module: str, args: list[str], *, env: dict[str, str], cwd: Path, stdout: str,
+            stderr: str | None = None) -> ForkedProcess:
+        """Fork a process that runs ``python -m module args`` with ``env`` in ``cwd``.
+
+        Its standard output goes to the file ``stdout``, its standard error to ``stderr`` (the
+        same file when None), its standard input is empty.
+        """
         with self._asking, self.changed:
             if self._process.poll() is not None:
                 raise RuntimeError(f"the preloaded interpreter stopped with code {self._process.returncode}")
-            request = {"module": module, "args": list(args), "env": dict(env), "cwd": str(cwd), "output": output}
+            request = {"module": module, "args": list(args), "env": dict(env), "cwd": str(cwd), "stdout": stdout,
+                       "stderr": stderr or stdout}  # fmt: skip
             self._process.stdin.write(json.dumps(request) + "\n")
             self._process.stdin.flush()
             if not self.changed.wait_for(lambda: self._started or self._process.poll() is not None, 60):

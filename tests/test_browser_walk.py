@@ -12,8 +12,6 @@ import pytest
 from playwright.sync_api import Browser, Page, expect
 
 from app.config import database_url
-from app.db import Database, upgrade
-from app.exchange.workbook import import_workbook
 from conftest import ARTIFACTS, DEMO_WORKBOOK, open_page
 from helpers import running_server
 
@@ -24,12 +22,8 @@ PARTNER = "p-jacob-ten-brummel"  # a merchant the broker writes to, and who writ
 
 
 @pytest.fixture(scope="module")
-def demo_url(tmp_path_factory: pytest.TempPathFactory):
-    path = tmp_path_factory.mktemp("walk") / "demo.db"
-    database = Database(database_url(path))
-    upgrade(database)
-    import_workbook(database, DEMO_WORKBOOK, size_limit=10**9)
-    database.dispose()
+def demo_url(tmp_path_factory: pytest.TempPathFactory, demo_sqlite):  # noqa: ANN001
+    path = demo_sqlite(tmp_path_factory.mktemp("walk") / "demo.db")
     with running_server(database_url(path)) as url:
         yield url
 

@@ -88,6 +88,56 @@ def _migrate(url: str) -> None:
         db.dispose()
 
 
+@pytest.fixture(scope="session")
+def migrated_sqlite(tmp_path_factory) -> Path:  # noqa: ANN001
+    """One SQLite file migrated by Alembic for the session; a test's fresh SQLite database is a copy of it.
+
+    Copying the file is a millisecond, migrating it again a tenth of a second; the copy is the
+    same bytes (tests/test_migrations.py runs the migrations themselves).
+    """
+    path = tmp_path_factory.mktemp("migrated") / "attesta.db"
+    _migrate(database_url(path))
+    leftovers = [p.name for p in path.parent.iterdir() if p != path]
+    assert not leftovers, f"the migrated file left {leftovers} behind (an open connection?)"
+    return path
+
+
+@pytest.fixture(scope="session")
+def demo_sqlite(migrated_sqlite: Path, tmp_path_factory):  # noqa: ANN001
+    """``demo_sqlite(path, actor=...)`` writes a copy of the demo imported into SQLite and returns ``path``.
+
+    The demo workbook is imported once per session for each audit ``actor`` (import_workbook's
+    own default when None) into a copy of the migrated file; each test gets a file copy of
+    that, as if it had imported the demo itself.
+    """
+    from app.exchange.workbook import import_workbook  # noqa: PLC0415 - only the tests that ask for the demo
+
+    built: dict[str | None, Path] = {}
+
+    def copy(path: Path, *, actor: str | None = None) -> Path:
+        if actor not in built:
+            source = tmp_path_factory.mktemp("demo") / "demo.db"
+            shutil.copyfile(migrated_sqlite, source)
+            database = Database(database_url(source))
+            try:
+                import_workbook(database, DEMO_WORKBOOK, size_limit=10**9, **({"actor": actor} if actor else {}))
+            finally:
+                database.dispose()
+            leftovers = [p.name for p in source.parent.iterdir() if p != source]
+            assert not leftovers, f"the demo file left {leftovers} behind (an open connection?)"
+            built[actor] = source
+        shutil.copyfile(built[actor], path)
+        return path
+
+    return copy
+
+
+def _migrated_copy(request, path: Path) -> str:  # noqa: ANN001
+    """Copy the session's migrated SQLite file to ``path``; return its URL."""
+    shutil.copyfile(request.getfixturevalue("migrated_sqlite"), path)
+    return database_url(path)
+
+
 class DatabaseUrls:
     """Hands out fresh migrated databases of one kind and gives them back at the end."""
 
@@ -95,6 +145,7 @@ class DatabaseUrls:
         self.kind = kind
         self.folder = folder
         self.server: PostgresServer | None = request.getfixturevalue("postgres") if kind == "postgresql" else None
+        self._request = request
         self._made: list[str] = []
 
     def new(self, name: str = "attesta", *, migrated: bool = True) -> str:
@@ -102,9 +153,8 @@ class DatabaseUrls:
         if self.server is not None:
             url = self.server.new_database(migrated=migrated)
         else:
-            url = database_url(self.folder / f"{name}-{len(self._made)}.db")
-            if migrated:
-                _migrate(url)
+            path = self.folder / f"{name}-{len(self._made)}.db"
+            url = _migrated_copy(self._request, path) if migrated else database_url(path)
         self._made.append(url)
         return url
 
@@ -138,12 +188,10 @@ def db_path(tmp_path: Path) -> Path:
 
 
 @pytest.fixture
-def db_url(db_kind: str, db_path: Path, database_urls: DatabaseUrls) -> str:
+def db_url(db_kind: str, db_path: Path, database_urls: DatabaseUrls, request) -> str:  # noqa: ANN001
     """URL of a migrated, empty database: the file ``db_path`` on SQLite."""
     if db_kind == "sqlite":
-        url = database_url(db_path)
-        _migrate(url)
-        return url
+        return _migrated_copy(request, db_path)
     return database_urls.new()
 
 

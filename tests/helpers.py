@@ -17,6 +17,7 @@ import httpx
 from sqlalchemy import select, update
 
 from app.db import Database
+from tests.preloaded import preloaded
 from app.models import (
     Attestation,
     Collection,
@@ -65,9 +66,17 @@ def running_server(db_url: str, *, env: dict[str, str] | None = None, timeout: f
 
 @contextmanager
 def served(command: list[str], base_url: str, environment: dict[str, str], *, timeout: float) -> Iterator[None]:
-    """Run a server ``command``, wait until ``base_url`` answers (its output in the error if not), then stop it."""
-    with tempfile.TemporaryFile() as output:
-        server = subprocess.Popen(command, cwd=ROOT, env=environment, stdout=output, stderr=subprocess.STDOUT)
+    """Run a server ``command``, wait until ``base_url`` answers (its output in the error if not), then stop it.
+
+    ``python -m MODULE ...`` runs in a process forked from the session's preloaded interpreter
+    (tests/preloaded.py), which saves importing the app again for every server; any other
+    command runs as it is.
+    """
+    with tempfile.NamedTemporaryFile(prefix="attesta-server-", suffix=".log") as output:
+        if command[:2] == [sys.executable, "-m"]:
+            server = preloaded().run(command[2], command[3:], env=environment, cwd=ROOT, stdout=output.name)
+        else:
+            server = subprocess.Popen(command, cwd=ROOT, env=environment, stdout=output, stderr=subprocess.STDOUT)
         try:
             _wait_until_answering(server, base_url, timeout, output)
             yield
@@ -80,13 +89,39 @@ def served(command: list[str], base_url: str, environment: dict[str, str], *, ti
                 server.wait()
 
 
+def run_module(args: list[str], *, env: dict[str, str] | None = None, timeout: float = 120) -> subprocess.CompletedProcess:
+    """``subprocess.run([python, "-m", *args], capture_output=True, text=True, cwd=ROOT)``, forked.
+
+    The command runs in a process forked from the session's preloaded interpreter
+    (tests/preloaded.py) instead of a fresh one that imports the app again, with ``env`` (or
+    this process's environment) as its whole environment and an empty standard input.
+    """
+    environment = dict(os.environ if env is None else env)
+    with tempfile.NamedTemporaryFile(prefix="attesta-out-") as out, tempfile.NamedTemporaryFile(prefix="attesta-err-") as err:
+        process = preloaded().run(args[0], args[1:], env=environment, cwd=ROOT, stdout=out.name, stderr=err.name)
+        try:
+            code = process.wait(timeout=timeout)
+        except subprocess.TimeoutExpired:
+            process.kill()
+            process.wait()
+            raise
+        return subprocess.CompletedProcess([sys.executable, "-m", *args], code, _text(out), _text(err))
+
+
+def _text(output) -> str:  # noqa: ANN001
+    """What ``text=True`` makes of a command's output: decoded, with universal newlines."""
+    return _read(output).replace("\r\n", "\n").replace("\r", "\n")
+
+
 def _wait_until_answering(server: subprocess.Popen, base_url: str, timeout: float, output) -> None:  # noqa: ANN001
     deadline = time.monotonic() + timeout
     while time.monotonic() < deadline:
         if server.poll() is not None:
             raise RuntimeError(f"the server stopped with code {server.returncode}:\n{_read(output)}")
         try:
-            httpx.get(f"{base_url}/openapi.json", timeout=1.0)
+            # a static file: the app is built and its startup done once uvicorn answers at all,
+            # and the OpenAPI document would cost seconds of CPU to build on the first request
+            httpx.get(f"{base_url}/static/favicon.svg", timeout=1.0)
             return
         except httpx.TransportError:
             time.sleep(0.1)

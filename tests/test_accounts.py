@@ -6,11 +6,12 @@ Request is RFC 9110 section 15.5.20.
 
 from __future__ import annotations
 
+import contextlib
 import os
-import signal
 import subprocess
 import sys
 import time
+from collections.abc import Iterator
 from datetime import datetime, timedelta
 
 import httpx
@@ -27,7 +28,7 @@ from app.config import Settings, database_url
 from app.main import create_app
 from app.models import AuditEntry, User
 from app.store.users import create_user
-from helpers import free_port
+from helpers import free_port, served
 from tests.accounts_world import PASSWORD, add_role_users, form_token, sign_in
 
 ROOT = os.path.dirname(os.path.dirname(os.path.abspath(__file__)))
@@ -293,43 +294,25 @@ def test_serve_on_another_address_needs_an_admin_and_a_secret_key(database, db_p
     assert result.returncode == 1 and "ATTESTA_SECRET_KEY" in result.stderr
 
 
-def _serve(db_path, env: dict[str, str]):
+@contextlib.contextmanager
+def _serve(db_path, env: dict[str, str]) -> Iterator[str]:
+    """Run `attesta serve` (real uvicorn) on a free loopback port; yield its base URL, then stop it."""
     port = free_port()
-    environment = {k: v for k, v in os.environ.items() if not k.startswith("ATTESTA_")} | env
-    server = subprocess.Popen([sys.executable, "-m", "app.cli", "serve", "--db", str(db_path), "--port", str(port)],
-                              cwd=ROOT, env=environment, stdout=subprocess.PIPE, stderr=subprocess.STDOUT,
-                              start_new_session=True)
     base = f"http://127.0.0.1:{port}"
-    deadline = time.monotonic() + 30
-    while True:
-        assert server.poll() is None, server.stdout.read().decode()
-        try:
-            httpx.get(f"{base}/openapi.json", timeout=1)
-            return server, base
-        except httpx.TransportError:
-            assert time.monotonic() < deadline
-            time.sleep(0.2)
-
-
-def _stop(server) -> None:
-    os.killpg(server.pid, signal.SIGTERM)
-    server.wait(timeout=20)
+    environment = {k: v for k, v in os.environ.items() if not k.startswith("ATTESTA_")} | env
+    with served([sys.executable, "-m", "app.cli", "serve", "--db", str(db_path), "--port", str(port)], base,
+                environment, timeout=30):  # fmt: skip
+        yield base
 
 
 def test_forwarded_headers_are_ignored_unless_a_proxy_is_trusted(database, db_path):
     """Real uvicorn through `attesta serve`: a forged X-Forwarded-For does not make a loopback client remote."""
     forged = {"X-Forwarded-For": "203.0.113.9", "X-Forwarded-Proto": "https"}
-    server, base = _serve(db_path, {})
-    try:
+    with _serve(db_path, {}) as base:
         response = httpx.get(f"{base}/", headers=forged, timeout=10)
         assert response.status_code == 200 and "Local use" in response.text  # still the loopback client
         cookie = response.headers.get("set-cookie", "").lower()
         assert "attesta_csrf" in cookie and "secure" not in cookie  # still plain http
-    finally:
-        _stop(server)
-    server, base = _serve(db_path, {"ATTESTA_TRUSTED_PROXIES": "127.0.0.1"})
-    try:
+    with _serve(db_path, {"ATTESTA_TRUSTED_PROXIES": "127.0.0.1"}) as base:
         response = httpx.get(f"{base}/", headers=forged, timeout=10)
         assert response.status_code == 303  # believed: a remote client, and this instance has no accounts for it
-    finally:
-        _stop(server)

@@ -22,17 +22,16 @@ from pathlib import Path
 import pytest
 
 from app.config import database_url
-from app.db import Database, upgrade
-from app.exchange.workbook import import_workbook
-from tests.conftest import DEMO_WORKBOOK, ROOT
-from tests.helpers import running_server
+from tests.conftest import ROOT
+from tests.helpers import run_module, running_server
 from tests.workbooks import write_workbook
 
 TABLES = ("person", "person_name", "relation", "attestation", "source", "audit_entry", "data_version")
 
 
 def attesta(*arguments: str, check: bool = False) -> subprocess.CompletedProcess:
-    done = subprocess.run([sys.executable, "-m", "app.cli", *arguments], capture_output=True, text=True, cwd=ROOT)
+    """Run ``python -m app.cli ARGUMENTS`` in its own process (forked from the preloaded interpreter, tests/helpers.py)."""
+    done = run_module(["app.cli", *arguments])
     if check:
         assert done.returncode == 0, done.stderr
     return done
@@ -52,13 +51,9 @@ def integrity(path: Path) -> str:
 
 
 @pytest.fixture
-def demo_db(tmp_path: Path) -> Path:
-    path = tmp_path / "attesta.db"
-    database = Database(database_url(path))
-    upgrade(database)
-    import_workbook(database, DEMO_WORKBOOK, size_limit=10**9, actor="demo")
-    database.dispose()
-    return path
+def demo_db(tmp_path: Path, demo_sqlite) -> Path:  # noqa: ANN001
+    """The demo imported into an SQLite file (a copy of the session's, tests/conftest.py)."""
+    return demo_sqlite(tmp_path / "attesta.db", actor="demo")
 
 
 # --- backup and restore -----------------------------------------------------------------------

@@ -11,6 +11,7 @@ from pathlib import Path
 
 import pytest
 
+from tests.helpers import run_module
 from tests.workbooks import small_world, write_workbook
 
 ATTESTA = [sys.executable, "-m", "app.cli"]
@@ -18,8 +19,9 @@ ROOT = Path(__file__).resolve().parent.parent
 
 
 def attesta(*args: str, env: dict[str, str] | None = None) -> subprocess.CompletedProcess:
+    """Run ``python -m app.cli ARGS`` in its own process (forked from the preloaded interpreter, tests/helpers.py)."""
     environment = {k: v for k, v in os.environ.items() if not k.startswith("ATTESTA_")} | (env or {})
-    return subprocess.run([*ATTESTA, *args], capture_output=True, text=True, cwd=ROOT, env=environment, timeout=120)
+    return run_module(["app.cli", *args], env=environment, timeout=120)
 
 
 def counts(db: Path) -> dict[str, int]:
@@ -94,7 +96,7 @@ def test_locked_database(initialized, tmp_path):
     holder = sqlite3.connect(initialized, isolation_level=None)
     holder.execute("BEGIN IMMEDIATE")
     holder.execute("UPDATE data_version SET version = version")
-    try:
+    try:  # a fresh interpreter, as the installed command starts
         result = subprocess.run(
             [*ATTESTA, "import", "--db", str(initialized), str(folder)], capture_output=True, text=True, cwd=ROOT,
             env={**os.environ, "ATTESTA_BUSY_TIMEOUT_MS": "200"}, timeout=120,

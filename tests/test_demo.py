@@ -29,11 +29,15 @@ pytestmark = pytest.mark.both_databases
 
 
 @pytest.fixture(scope="module")
-def demo(module_database_urls):
+def demo(module_database_urls, demo_sqlite, db_kind, tmp_path_factory):
     from app.db import Database
+    from app.config import database_url
 
-    database = Database(module_database_urls.new("demo"))
-    import_workbook(database, DEMO_WORKBOOK, size_limit=10**9)
+    if db_kind == "sqlite":  # the session's demo file, imported the same way (tests/conftest.py)
+        database = Database(database_url(demo_sqlite(tmp_path_factory.mktemp("demo") / "demo.db")))
+    else:
+        database = Database(module_database_urls.new("demo"))
+        import_workbook(database, DEMO_WORKBOOK, size_limit=10**9)
     yield database
     database.dispose()
 

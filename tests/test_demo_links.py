@@ -17,12 +17,9 @@ from bs4 import BeautifulSoup, SoupStrainer
 from fastapi.testclient import TestClient
 
 from app.config import Settings, database_url
-from app.db import Database, upgrade
-from app.exchange.workbook import import_workbook
 from app.main import create_app
 from app.network.slice import Slice
 from app.views.common import Urls
-from conftest import DEMO_WORKBOOK
 
 URLS = Urls()
 # The persons whose drawings are checked link by link on their pages: the broker, the owner of the
@@ -49,12 +46,8 @@ def words(element) -> str:  # noqa: ANN001
 
 
 @pytest.fixture(scope="module")
-def client(tmp_path_factory: pytest.TempPathFactory):
-    path: Path = tmp_path_factory.mktemp("links") / "demo.db"
-    database = Database(database_url(path))
-    upgrade(database)
-    import_workbook(database, DEMO_WORKBOOK, size_limit=10**9)
-    database.dispose()
+def client(tmp_path_factory: pytest.TempPathFactory, demo_sqlite):  # noqa: ANN001
+    path: Path = demo_sqlite(tmp_path_factory.mktemp("links") / "demo.db")
     with TestClient(create_app(Settings(database_url=database_url(path)))) as test_client:
         yield test_client
 

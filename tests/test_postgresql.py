@@ -9,8 +9,6 @@ answers.
 from __future__ import annotations
 
 import csv
-import subprocess
-import sys
 
 import httpx
 import pytest
@@ -22,8 +20,8 @@ from app.db import Database, alembic_config, check_schema, current_revision, hea
 from app.exchange.workbook import import_workbook
 from app.models import RelationKind
 from app.names import fold
-from tests.conftest import DEMO_WORKBOOK, ROOT
-from tests.helpers import running_server
+from tests.conftest import DEMO_WORKBOOK
+from tests.helpers import run_module, running_server
 
 # Names beyond the demo's: letters Unicode decomposes (accents), those it does not (ø, ł, ß, æ),
 # compatibility forms (ligature, full-width, superscript), upper case of each, odd white space.
@@ -115,17 +113,16 @@ def test_a_new_relation_kind_gets_an_id_past_the_seeded_ones(pg_url: str) -> Non
 def test_the_command_initialises_and_imports_into_a_postgresql_url(postgres, tmp_path) -> None:  # noqa: ANN001
     url = postgres.new_database(migrated=False)
     try:
-        attesta = [sys.executable, "-m", "app.cli"]
-        done = subprocess.run([*attesta, "init", "--db", url], capture_output=True, text=True, cwd=ROOT)
+        # each command in its own process, forked from the preloaded interpreter (tests/helpers.py)
+        done = run_module(["app.cli", "init", "--db", url])
         assert done.returncode == 0, done.stderr
         # the demo has namesakes told apart by their dates: the command names them and stops, until told
-        done = subprocess.run([*attesta, "import", "--db", url, str(DEMO_WORKBOOK)], capture_output=True, text=True, cwd=ROOT)
+        done = run_module(["app.cli", "import", "--db", url, str(DEMO_WORKBOOK)])
         assert done.returncode == 1 and "likely duplicate" in done.stderr
-        done = subprocess.run([*attesta, "import", "--db", url, "--duplicates", "apart", str(DEMO_WORKBOOK)],
-                              capture_output=True, text=True, cwd=ROOT)
+        done = run_module(["app.cli", "import", "--db", url, "--duplicates", "apart", str(DEMO_WORKBOOK)])
         assert done.returncode == 0, done.stderr
         assert "data version 1" in done.stdout
-        done = subprocess.run([*attesta, "export", "--db", url, str(tmp_path / "out")], capture_output=True, text=True, cwd=ROOT)
+        done = run_module(["app.cli", "export", "--db", url, str(tmp_path / "out")])
         assert done.returncode == 0, done.stderr
         assert (tmp_path / "out" / "relations.csv").read_text(encoding="utf-8").count("\n") > 100
     finally:
@@ -163,15 +160,14 @@ def _without_volatile(value):  # noqa: ANN001, ANN202
 
 
 @pytest.fixture(scope="module")
-def demo_servers(postgres, tmp_path_factory):  # noqa: ANN001
+def demo_servers(postgres, tmp_path_factory, demo_sqlite):  # noqa: ANN001
     """The demo imported into an SQLite file and into PostgreSQL, each served by real uvicorn."""
-    sqlite_url = database_url(tmp_path_factory.mktemp("demo-sqlite") / "demo.db")
+    sqlite_url = database_url(demo_sqlite(tmp_path_factory.mktemp("demo-sqlite") / "demo.db", actor="demo"))
     pg_url = postgres.new_database()
-    for url in (sqlite_url, pg_url):
-        database = Database(url)
-        upgrade(database)
-        import_workbook(database, DEMO_WORKBOOK, size_limit=10**9, actor="demo")
-        database.dispose()
+    database = Database(pg_url)
+    upgrade(database)
+    import_workbook(database, DEMO_WORKBOOK, size_limit=10**9, actor="demo")
+    database.dispose()
     try:
         with running_server(sqlite_url) as on_sqlite, running_server(pg_url) as on_postgresql:
             yield on_sqlite, on_postgresql

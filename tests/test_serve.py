@@ -67,6 +67,47 @@ def test_several_server_processes_answer_and_ignore_forged_headers(database, db_
     assert "Local use: no accounts" in forged.text and not _secure_cookie(forged)
 
 
+def test_an_upload_previews_and_imports_whichever_server_process_answers(database, db_path, tmp_path):
+    """With several processes the page's polling reaches any of them: each must show the same upload."""
+    import re
+    import time
+
+    from tests.workbooks import small_world, write_workbook
+
+    folder = write_workbook(tmp_path / "wb", small_world())
+    files = [("files", (p.name, p.read_bytes(), "text/csv")) for p in sorted(folder.iterdir())]
+    with attesta_serve(db_path, "--workers", "2") as base:
+        # no kept-alive connections: every request is accepted anew, by whichever process gets to it first
+        with httpx.Client(base_url=base, limits=httpx.Limits(max_keepalive_connections=0), timeout=60) as client:
+            def token() -> str:
+                return re.search(r'name="csrf_token" value="([^"]+)"', client.get("/import").text).group(1)
+
+            def settle(url: str) -> tuple[dict, list[int]]:
+                codes = []
+                for _ in range(600):
+                    answer = client.get("/api" + url)
+                    codes.append(answer.status_code)
+                    if answer.status_code == 200 and answer.json()["stage"] not in ("previewing", "importing"):
+                        return answer.json(), codes
+                    time.sleep(0.05)
+                raise AssertionError(f"still running: {codes[-5:]}")
+
+            made = client.post("/api/import", data={"csrf_token": token()}, files=files)
+            assert made.status_code == 201, made.text
+            url = made.json()["url"]
+            state, codes = settle(url)
+            assert state["stage"] == "preview" and set(codes) == {200}, (state["stage"], codes)
+            fingerprint = state["task"]["preview"]["fingerprint"]
+            again = [client.get("/api" + url).json()["task"]["preview"]["fingerprint"] for _ in range(6)]
+            assert again == [fingerprint] * 6  # the same preview from both processes, not made again
+            confirmed = client.post(url + "/confirm", data={"csrf_token": token(), "fingerprint": fingerprint})
+            assert confirmed.status_code in (200, 303), confirmed.text
+            state, codes = settle(url)
+            assert state["stage"] == "imported" and set(codes) == {200}, (state, codes)
+            persons = {client.get("/api/summary").json()["summary"]["persons"] for _ in range(4)}
+    assert persons == {len(small_world()["persons.csv"])}
+
+
 def test_only_one_of_several_server_processes_runs_the_measure_worker(database, db_url):
     first, second = Worker(Database(db_url), shared=True), Worker(Database(db_url), shared=True)
     try:

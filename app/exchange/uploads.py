@@ -15,6 +15,7 @@ from __future__ import annotations
 
 import hashlib
 import json
+import os
 import secrets
 import shutil
 import threading
@@ -24,6 +25,7 @@ from dataclasses import dataclass, field
 from pathlib import Path, PurePath
 from typing import Any, BinaryIO
 
+from pydantic import TypeAdapter
 from sqlalchemy import select
 from sqlalchemy.orm import Session
 
@@ -276,6 +278,14 @@ def _remove_expired(root: Path) -> None:
         return
     now = time.time()
     for folder in root.iterdir():
+        if folder.name == ".tasks":  # the tasks' state files: kept as long as an upload is
+            for state in folder.iterdir():
+                try:
+                    if now - state.stat().st_mtime > EXPIRY_SECONDS:
+                        state.unlink(missing_ok=True)
+                except OSError:
+                    pass
+            continue
         meta = folder / "meta.json"
         try:
             created = json.loads(meta.read_text())["created"] if meta.is_file() else folder.stat().st_mtime
@@ -637,35 +647,64 @@ class ImportTask:
     """The data version after the import."""
 
 
-class ImportTasks:
-    """The previews and imports of one server process, each run in a thread of its own."""
+STALE_SECONDS = 20.0
+"""A running preview or import whose state file was not rewritten for this long is taken as gone (its process stopped)."""
+_BEAT_SECONDS = 1.0  # how often a running task writes its state (and progress) for the other processes
 
-    def __init__(self) -> None:
+
+class ImportTasks:
+    """The previews and imports of uploads, each run in a thread of the process that started it.
+
+    With ``root`` (the uploads' folder), every task's state is also written to ``root/.tasks/TOKEN.json``
+    while it runs and when it ends, so every server process of ``attesta serve --workers N`` shows the
+    same progress and preview, whichever of them the page's polling reaches; and a claim file made
+    with O_EXCL lets only one process run a task of an upload at a time.
+    """
+
+    def __init__(self, root: Path | None = None) -> None:
         self.tasks: dict[str, ImportTask] = {}
         self.lock = threading.Lock()
+        self.folder = root / ".tasks" if root is not None else None
 
     def get(self, token: str) -> ImportTask | None:
+        """Return the upload's task: from its state file when there is a folder (it may run in another process)."""
+        if self.folder is not None:
+            return self._read(token)
         with self.lock:
             return self.tasks.get(token)
 
     def forget(self, token: str) -> None:
         """Drop a finished preview (the upload's options changed); a running task is kept."""
         with self.lock:
-            task = self.tasks.get(token)
+            task = self.get(token)
             if task is not None and task.stage not in ("previewing", "importing", "imported"):
-                del self.tasks[token]
+                self.tasks.pop(token, None)
+                if self.folder is not None:
+                    (self.folder / f"{token}.json").unlink(missing_ok=True)
 
     def start(self, token: str, stage: str, work: Callable[[ImportTask, Callable[[int, int], None]], None]) -> ImportTask:
-        """Run ``work(task, progress)`` in a thread; a failure is kept as the task's error."""
+        """Run ``work(task, progress)`` in a thread; a failure is kept as the task's error.
+
+        When a task of the upload already runs, here or in another process, that task is answered instead.
+        """
         task = ImportTask(token=token, stage=stage)
         with self.lock:
-            running = self.tasks.get(token)
+            running = self.get(token)
             if running is not None and running.stage in ("previewing", "importing"):
                 return running
+            if not self._claim(token):  # another process is starting one this very moment
+                return self._read(token) or task
             self.tasks[token] = task
+            self._write(task)
 
         def progress(done: int, total: int) -> None:
             task.done, task.total = done, total
+
+        finished = threading.Event()
+
+        def beat() -> None:
+            while not finished.wait(_BEAT_SECONDS):
+                self._write(task)
 
         def run() -> None:
             try:
@@ -676,6 +715,69 @@ class ImportTasks:
             except Exception as error:  # noqa: BLE001 - shown on the page rather than lost in a thread
                 task.error = f"the import stopped with an error: {error}"
                 task.stage = "failed"
+            finally:
+                finished.set()
+                self._write(task)
+                self._release(token)
 
+        threading.Thread(target=beat, name=f"import-beat-{token[:8]}", daemon=True).start()
         threading.Thread(target=run, name=f"import-{token[:8]}", daemon=True).start()
         return task
+
+    # --- the state files shared by the processes ---------------------------------------------
+
+    def _path(self, token: str, suffix: str = ".json") -> Path | None:
+        if self.folder is None or not token.replace("-", "").replace("_", "").isalnum():
+            return None  # a token is URL-safe base64; anything else never names a file
+        return self.folder / f"{token}{suffix}"
+
+    def _read(self, token: str) -> ImportTask | None:
+        path = self._path(token)
+        if path is None:
+            return None
+        try:
+            data, age = path.read_bytes(), time.time() - path.stat().st_mtime
+            task = _TASK_JSON.validate_json(data)
+        except (OSError, ValueError):
+            return None
+        if task.stage in ("previewing", "importing") and age > STALE_SECONDS:
+            return None  # its process stopped: the page may start it again
+        return task
+
+    def _write(self, task: ImportTask) -> None:
+        path = self._path(task.token)
+        if path is None:
+            return
+        path.parent.mkdir(parents=True, exist_ok=True)
+        partial = path.with_name(f"{path.name}.{os.getpid()}.{threading.get_ident()}.part")
+        partial.write_bytes(_TASK_JSON.dump_json(task))
+        os.replace(partial, path)  # readers see the old state or the new, never half of one
+
+    def _claim(self, token: str) -> bool:
+        """Make the upload's claim file; False while another process holds it (a task runs, or is just starting)."""
+        path = self._path(token, ".claim")
+        if path is None:
+            return True
+        path.parent.mkdir(parents=True, exist_ok=True)
+        for _ in range(2):
+            try:
+                os.close(os.open(path, os.O_CREAT | os.O_EXCL | os.O_WRONLY))
+                return True
+            except FileExistsError:
+                state = self._read(token)
+                try:
+                    just_made = time.time() - path.stat().st_mtime <= STALE_SECONDS
+                except FileNotFoundError:
+                    continue  # released meanwhile: try again
+                if (state is not None and state.stage in ("previewing", "importing")) or just_made:
+                    return False
+                path.unlink(missing_ok=True)  # left by a process that stopped mid-task
+        return False
+
+    def _release(self, token: str) -> None:
+        path = self._path(token, ".claim")
+        if path is not None:
+            path.unlink(missing_ok=True)
+
+
+_TASK_JSON = TypeAdapter(ImportTask)

@@ -5,7 +5,8 @@ workbook's sheets may need the mapping step; then every kind has the same previe
 same all-or-nothing confirmation.
 
 Only the confirmation writes. The preview and the import run in a thread of the server
-process (``ImportTasks``), which the page follows by polling its progress route with htmx.
+process that received them (``ImportTasks``), which the page follows by polling its progress route
+with htmx; their state is written beside the uploads, so any server process can answer the polling.
 """
 
 from __future__ import annotations
@@ -104,7 +105,7 @@ def _root(request: Request):  # noqa: ANN202
 def _tasks(request: Request) -> ImportTasks:
     tasks = getattr(request.app.state, "import_tasks", None)
     if tasks is None:
-        tasks = request.app.state.import_tasks = ImportTasks()
+        tasks = request.app.state.import_tasks = ImportTasks(_root(request))
     return tasks
 
 

@@ -351,7 +351,7 @@ def export_drawing_command(database: str | None, slice_query: str, include_restr
     from app.exchange.snapshot import dataset_version
     from app.views.common import Urls
     from app.views.ego import ego_panel, standalone_ego_svg
-    from app.views.redaction import Redactor
+    from app.views.redaction import without_left_out
 
     suffix = output.suffix.lower()
     if suffix not in (".svg", ".png"):
@@ -365,11 +365,10 @@ def export_drawing_command(database: str | None, slice_query: str, include_restr
         except HTTPException as error:
             _fail(str(error.detail))
         if leave_out is not None:
-            redactor = Redactor(leave_out)
-            if redactor.is_about_restricted(view):
+            view = without_left_out(view, leave_out)
+            if view is None:
                 _fail(f"{person} is a restricted person: their drawing is written only when an admin asks "
                       "(--include-restricted --as-user ADMIN)")
-            view = redactor.redact(view)
         svg, _name = standalone_ego_svg(view, urls=Urls(""), dataset_sha256=dataset_version(session).sha256)
     output.write_bytes(png_of(svg, label_class=".ego-svg .ego-label") if suffix == ".png" else svg.encode("utf-8"))
     click.echo(f"{output}: ego network of {view.name}, radius {view.radius}, {len(view.drawing.nodes)} persons, "

@@ -180,9 +180,7 @@ def list_collection_names(*, session: Session, ids: Iterable[int]) -> dict[int, 
         .join(Repository, Collection.repository_id == Repository.id)
         .where(Collection.id.in_(wanted))
     ).all()
-    labels = {cid: f"{repository}: {name}" for cid, _key, name, repository in rows}
-    repeated = {label for label in labels.values() if list(labels.values()).count(label) > 1}
-    return {cid: f"{labels[cid]} ({key})" if labels[cid] in repeated else labels[cid] for cid, key, _n, _r in rows}
+    return _keyed_where_repeated({cid: (f"{repository}: {name}", key) for cid, key, name, repository in rows})
 
 
 def list_collection_repositories(*, session: Session, ids: Iterable[int]) -> dict[int, str]:
@@ -199,9 +197,14 @@ def list_collection_repositories(*, session: Session, ids: Iterable[int]) -> dic
         .join(Repository, Collection.repository_id == Repository.id)
         .where(Collection.id.in_(wanted))
     ).all()
-    names = {rid: name for _cid, rid, _key, name in rows}
-    repeated = {name for name in names.values() if list(names.values()).count(name) > 1}
-    return {cid: f"{name} ({key})" if name in repeated else name for cid, _rid, key, name in rows}
+    names = _keyed_where_repeated({rid: (name, key) for _cid, rid, key, name in rows})
+    return {cid: names[rid] for cid, rid, _key, _name in rows}
+
+
+def _keyed_where_repeated(labels: dict[int, tuple[str, str]]) -> dict[int, str]:
+    """Return each id's label, followed by its key where the same label stands for more than one id."""
+    uses = Counter(label for label, _key in labels.values())
+    return {id_: f"{label} ({key})" if uses[label] > 1 else label for id_, (label, key) in labels.items()}
 
 
 def list_relation_kinds(*, session: Session) -> list[KindLabel]:

@@ -27,7 +27,7 @@ from app.store.network_labels import get_person_label, list_relation_kinds
 from app.store.summary import get_data_version
 from app.views.common import BadParameter, SessionDep, SliceDep, Urls, render, templates, urls_for
 from app.store.privacy import RestrictedPersons
-from app.views.redaction import Redactor, redact_for
+from app.views.redaction import redact_for, without_left_out
 from app.views.slicing import SliceControls, slice_controls
 
 __all__ = ["EgoPanel", "ego_panel", "router", "standalone_ego_svg"]
@@ -205,11 +205,10 @@ def ego_download(request: Request, session: Session, slice: Slice, key: str, rad
     """
     view = redact_for(request, ego_panel(session=session, person_key=key, slice=slice, radius=_radius(radius)))
     if leave_out is not None:
-        redactor = Redactor(leave_out)
-        if redactor.is_about_restricted(view):
+        view = without_left_out(view, leave_out)
+        if view is None:
             raise HTTPException(403, "This is a restricted person: their ego drawing is exported only when an admin "
                                      "asks for restricted persons (restricted=include).")
-        view = redactor.redact(view)
     return standalone_ego_svg(view, urls=urls_for(request), dataset_sha256=cited_sha(request, session))
 
 

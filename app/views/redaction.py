@@ -31,7 +31,7 @@ from app.store.privacy import RESTRICTED_KEY, RESTRICTED_NAME, RestrictedPersons
 from app.store.summary import get_data_version
 from app.views.common import request_session
 
-__all__ = ["RESTRICTED_KEY", "RESTRICTED_NAME", "Redactor", "redact_for", "restricted_for", "restricted_persons"]
+__all__ = ["RESTRICTED_KEY", "RESTRICTED_NAME", "Redactor", "redact_for", "restricted_for", "restricted_persons", "without_left_out"]
 
 NAME_FIELDS = frozenset({"name", "label", "display_name", "sort_name", "title", "ego_name"})
 EVIDENCE_WORDS = frozenset({
@@ -230,6 +230,13 @@ def _restricted_at(state: Any, session: Any, today: date) -> RestrictedPersons:
         cached = (key, found)
         state.restricted_persons = cached
     return cached[1]
+
+
+def without_left_out(view: Any, leave_out: RestrictedPersons) -> Any | None:
+    """Return ``view`` for a file that leaves ``leave_out`` out: those persons read "restricted person";
+    None when the view is about one of them (a file centred on them is refused)."""
+    redactor = Redactor(leave_out)
+    return None if redactor.is_about_restricted(view) else redactor.redact(view)
 
 
 def redact_for(request: Request, view: Any) -> Any:

@@ -204,7 +204,7 @@ def test_the_drawing_command_refuses_a_drawing_centred_on_a_restricted_person_un
     given = attesta("export-drawing", "--db", str(path), "--include-restricted", "--as-user", "ada", "p-zorwald",
                     str(tmp_path / "given.png"))
     assert given.returncode == 0, given.stderr
-    assert (tmp_path / "given.png").read_bytes()[:8] == b"\x89PNG\r\n\x1a\n"  # the PNG signature (RFC 2083, 12.12)
+    assert (tmp_path / "given.png").read_bytes()[:8] == b"\x89PNG\r\n\x1a\n"  # the PNG file signature (RFC 2083, section 3.1; from memory)
 
 
 def _read(target) -> str:
